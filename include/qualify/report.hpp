@@ -3,6 +3,7 @@
 #pragma once
 
 #include <Eigen/Core>
+#include <cstdio>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -69,6 +70,17 @@ class row_names {
  private:
   std::vector<std::string> labels_;
 };
+
+namespace detail {
+
+/// Three significant digits: the figures in messages are for reading, the fields keep all.
+inline std::string format_figure(double v) {
+  char buffer[32];
+  std::snprintf(buffer, sizeof buffer, "%.3g", v);
+  return buffer;
+}
+
+}  // namespace detail
 
 /// Appends a finding whose rows are named through `names`.
 inline void add_finding(std::vector<finding>& findings, severity level, std::string code,

@@ -1,0 +1,84 @@
+// qualify: dense linear-algebra kernels shared by the checks (input scan, triangular inverse, norms).
+// SPDX-License-Identifier: MIT
+#pragma once
+
+#include <Eigen/Dense>
+#include <algorithm>
+#include <cmath>
+#include <optional>
+#include <string>
+
+namespace qualify::detail {
+
+template <class Scalar>
+using matrix = Eigen::Matrix<Scalar, Eigen::Dynamic, Eigen::Dynamic>;
+template <class Scalar>
+using vector = Eigen::Matrix<Scalar, Eigen::Dynamic, 1>;
+
+/// Position of the first non-finite entry (column-major scan), if any.
+struct entry_position {
+  Eigen::Index row = 0, col = 0;
+};
+
+template <class Derived>
+std::optional<entry_position> first_non_finite(const Eigen::MatrixBase<Derived>& m) {
+  if (m.allFinite()) return std::nullopt;  // fast vectorised path for the usual case
+  for (Eigen::Index j = 0; j < m.cols(); ++j)
+    for (Eigen::Index i = 0; i < m.rows(); ++i)
+      if (!std::isfinite(static_cast<long double>(m(i, j)))) return entry_position{i, j};
+  return std::nullopt;
+}
+
+inline std::string describe_non_finite(long double v) {
+  return std::isnan(v) ? "NaN" : (v > 0 ? "+Inf" : "-Inf");
+}
+
+/// Inverts an upper-triangular matrix in place by recursive 2x2 blocking, so that almost
+/// all the work runs in triangular-times-dense products at matrix-multiply speed (about n^3/3
+/// flops). Entries below the diagonal are left untouched. The caller makes sure the diagonal
+/// has no zero.
+template <class Scalar>
+void invert_upper_in_place(Eigen::Ref<matrix<Scalar>> t) {
+  const Eigen::Index n = t.rows();
+  constexpr Eigen::Index leaf = 64;
+  if (n <= leaf) {
+    matrix<Scalar> inverse = matrix<Scalar>::Identity(n, n);
+    t.template triangularView<Eigen::Upper>().solveInPlace(inverse);
+    t.template triangularView<Eigen::Upper>() = inverse;
+    return;
+  }
+  const Eigen::Index h = n / 2;
+  invert_upper_in_place<Scalar>(t.topLeftCorner(h, h));
+  invert_upper_in_place<Scalar>(t.bottomRightCorner(n - h, n - h));
+  // [A B; 0 C]^{-1} = [A^{-1}  -A^{-1} B C^{-1}; 0  C^{-1}]
+  matrix<Scalar> left = t.topLeftCorner(h, h).template triangularView<Eigen::Upper>() *
+                        t.topRightCorner(h, n - h);
+  t.topRightCorner(h, n - h).noalias() =
+      -(left * t.bottomRightCorner(n - h, n - h).template triangularView<Eigen::Upper>());
+}
+
+/// Estimate of the 2-norm of a matrix by power iteration on M^T M. It never exceeds the
+/// true norm (a Rayleigh quotient), so 1/estimate of an inverse's norm is an upper estimate of
+/// the smallest singular value.
+template <class Derived>
+typename Derived::Scalar two_norm_estimate(const Eigen::MatrixBase<Derived>& m,
+                                           int iterations = 12) {
+  using Scalar = typename Derived::Scalar;
+  const Eigen::Index n = m.cols();
+  if (n == 0 || m.rows() == 0) return Scalar(0);
+  // A fixed, uneven start so that no singular vector is missed by symmetry.
+  vector<Scalar> v(n);
+  for (Eigen::Index i = 0; i < n; ++i) v(i) = Scalar(1) + Scalar(i % 7) / Scalar(7);
+  Scalar estimate(0);
+  for (int k = 0; k < iterations; ++k) {
+    const Scalar vn = v.norm();
+    if (!(vn > Scalar(0))) break;
+    v /= vn;
+    const vector<Scalar> w = m * v;
+    estimate = w.norm();
+    v.noalias() = m.transpose() * w;
+  }
+  return estimate;
+}
+
+}  // namespace qualify::detail

@@ -1,0 +1,247 @@
+// qualify: reports as JSON objects with stable snake_case keys (see the README's key table).
+// SPDX-License-Identifier: MIT
+#pragma once
+
+#include <qualify/licq.hpp>
+#include <qualify/linear_cq.hpp>
+#include <qualify/report.hpp>
+
+#include <cmath>
+#include <cstdio>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace qualify {
+
+/// Bumped when a key changes meaning or disappears; new keys do not bump it.
+inline constexpr int json_schema_version = 1;
+
+namespace detail {
+
+/// A minimal streaming JSON writer: commas and escaping handled, non-finite numbers as null.
+class json_writer {
+ public:
+  json_writer& begin_object() { return open('{'); }
+  json_writer& end_object() { return close('}'); }
+  json_writer& begin_array() { return open('['); }
+  json_writer& end_array() { return close(']'); }
+
+  json_writer& key(std::string_view k) {
+    separate();
+    string(k);
+    out_ += ':';
+    after_key_ = true;
+    return *this;
+  }
+  json_writer& value(std::string_view s) {
+    separate();
+    string(s);
+    return *this;
+  }
+  json_writer& value(const char* s) { return value(std::string_view(s)); }
+  json_writer& value(bool b) {
+    separate();
+    out_ += b ? "true" : "false";
+    return *this;
+  }
+  json_writer& value(double v) {
+    separate();
+    if (!std::isfinite(v)) {
+      out_ += "null";
+    } else {
+      char buffer[32];
+      std::snprintf(buffer, sizeof buffer, "%.17g", v);
+      out_ += buffer;
+    }
+    return *this;
+  }
+  json_writer& value(Index v) {
+    separate();
+    out_ += std::to_string(v);
+    return *this;
+  }
+  json_writer& value(int v) { return value(Index(v)); }
+  template <class T>
+  json_writer& value(const std::vector<T>& list) {
+    begin_array();
+    for (const auto& item : list) value(item);
+    return end_array();
+  }
+  template <class T>
+  json_writer& field(std::string_view k, const T& v) {
+    key(k);
+    return value(v);
+  }
+
+  const std::string& str() const noexcept { return out_; }
+
+ private:
+  json_writer& open(char c) {
+    separate();
+    out_ += c;
+    first_ = true;
+    return *this;
+  }
+  json_writer& close(char c) {
+    out_ += c;
+    first_ = false;
+    return *this;
+  }
+  void separate() {
+    if (after_key_) {
+      after_key_ = false;
+      return;
+    }
+    if (!first_) out_ += ',';
+    first_ = false;
+  }
+  void string(std::string_view s) {
+    out_ += '"';
+    for (unsigned char c : s) {
+      switch (c) {
+        case '"': out_ += "\\\""; break;
+        case '\\': out_ += "\\\\"; break;
+        case '\n': out_ += "\\n"; break;
+        case '\r': out_ += "\\r"; break;
+        case '\t': out_ += "\\t"; break;
+        default:
+          if (c < 0x20) {
+            char buffer[8];
+            std::snprintf(buffer, sizeof buffer, "\\u%04x", c);
+            out_ += buffer;
+          } else {
+            out_ += char(c);
+          }
+      }
+    }
+    out_ += '"';
+  }
+
+  std::string out_;
+  bool first_ = true;
+  bool after_key_ = false;
+};
+
+inline void write_findings(json_writer& w, const std::vector<finding>& findings) {
+  w.key("findings").begin_array();
+  for (const auto& f : findings) {
+    w.begin_object()
+        .field("severity", to_string(f.level))
+        .field("code", f.code)
+        .field("message", f.message)
+        .field("rows", f.rows)
+        .field("labels", f.labels)
+        .end_object();
+  }
+  w.end_array();
+}
+
+inline void write_pairs(json_writer& w, std::string_view k, const std::vector<row_pair>& pairs) {
+  w.key(k).begin_array();
+  for (const auto& p : pairs)
+    w.begin_object().field("first", p.first).field("second", p.second).field("ratio", p.ratio).end_object();
+  w.end_array();
+}
+
+inline void write_body(json_writer& w, const licq_report& r) {
+  w.field("check", "licq")
+      .field("verdict", to_string(r.result))
+      .field("message", r.message)
+      .field("method", to_string(r.method))
+      .field("rows", r.rows)
+      .field("cols", r.cols)
+      .field("rank", r.rank)
+      .field("raw_rank", r.raw_rank)
+      .key("relative_threshold_requested");
+  if (r.relative_threshold_requested)
+    w.value(*r.relative_threshold_requested);
+  else
+    w.value("automatic");
+  w.field("relative_threshold", r.relative_threshold)
+      .field("threshold", r.threshold)
+      .field("raw_threshold", r.raw_threshold)
+      .field("deciding_value", r.deciding_value)
+      .field("margin", r.margin)
+      .field("smallest_singular_value", r.smallest_singular_value)
+      .field("largest_singular_value", r.largest_singular_value)
+      .field("condition_number", r.condition_number)
+      .field("independent_rows", r.independent_rows)
+      .field("dependent_rows", r.dependent_rows())
+      .key("dependencies")
+      .begin_array();
+  for (const auto& d : r.dependencies) {
+    w.begin_object().field("row", d.row).field("label", r.names(d.row)).key("terms").begin_array();
+    for (const auto& t : d.terms)
+      w.begin_object().field("row", t.row).field("coefficient", t.coefficient).end_object();
+    w.end_array().field("residual", d.residual).end_object();
+  }
+  w.end_array().field("zero_rows", r.zero_rows);
+  write_pairs(w, "duplicate_rows", r.duplicate_rows);
+  write_pairs(w, "parallel_rows", r.parallel_rows);
+  write_pairs(w, "opposed_rows", r.opposed_rows);
+  if (r.active) {
+    w.key("active_set")
+        .begin_object()
+        .field("activity_tolerance", r.active->activity_tolerance)
+        .field("active", r.active->active)
+        .field("near_active", r.active->near_active)
+        .field("violated", r.active->violated)
+        .end_object();
+  }
+  w.field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
+inline void write_body(json_writer& w, const linear_cq_report& r) {
+  std::vector<std::string> kinds;
+  for (auto k : r.kinds) kinds.emplace_back(to_string(k));
+  w.field("check", "linear_cq")
+      .field("verdict", to_string(r.result))
+      .field("message", r.message)
+      .field("checked_rows", r.checked_rows)
+      .field("non_affine_rows", r.non_affine_rows)
+      .field("kinds", kinds)
+      .field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
+inline void write_body(json_writer& w, const affine_check_report& r) {
+  w.field("check", "declared_affine")
+      .field("verdict", to_string(r.result))
+      .field("message", r.message)
+      .field("tolerance", r.tolerance)
+      .field("samples", r.samples)
+      .field("checked_rows", r.checked_rows)
+      .field("deviation", r.deviation)
+      .field("not_affine_rows", r.not_affine_rows)
+      .field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
+template <class Report>
+std::string report_json(const Report& r) {
+  json_writer w;
+  w.begin_object().field("schema_version", json_schema_version);
+  write_body(w, r);
+  w.end_object();
+  return w.str();
+}
+
+}  // namespace detail
+
+/// One JSON object per report; keys are listed in the README and never renamed.
+inline std::string to_json(const licq_report& r) { return detail::report_json(r); }
+inline std::string to_json(const linear_cq_report& r) { return detail::report_json(r); }
+inline std::string to_json(const affine_check_report& r) { return detail::report_json(r); }
+inline std::string to_json(const qualification_report& r) {
+  detail::json_writer w;
+  w.begin_object().field("schema_version", json_schema_version).key("licq").begin_object();
+  detail::write_body(w, r.licq);
+  w.end_object().key("linear_cq").begin_object();
+  detail::write_body(w, r.linear_cq);
+  w.end_object().end_object();
+  return w.str();
+}
+
+}  // namespace qualify

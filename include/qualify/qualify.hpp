@@ -1,0 +1,9 @@
+// qualify: the umbrella header, every capability (add-ons format, json and doctest are separate).
+// SPDX-License-Identifier: MIT
+#pragma once
+
+#include <qualify/version.hpp>
+#include <qualify/report.hpp>
+#include <qualify/constraints.hpp>
+#include <qualify/licq.hpp>
+#include <qualify/linear_cq.hpp>
