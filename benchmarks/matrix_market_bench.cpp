@@ -3,8 +3,6 @@
 //
 // Usage: matrix_market_bench [entries]   (default 1000000). The file is written to the system's
 // temporary directory and read back with a warm page cache; each figure is the best of 5 runs.
-#include <qualify/matrix_market.hpp>
-
 #include <sys/resource.h>
 
 #include <chrono>
@@ -12,6 +10,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <qualify/matrix_market.hpp>
 #include <random>
 #include <string>
 
@@ -70,8 +69,8 @@ int main(int argc, char** argv) {
   triplets.reserve(static_cast<std::size_t>(entries));
   for (long k = 0; k < entries; ++k) {
     long r = k / 10;
-    triplets.emplace_back(static_cast<int>(r % rows), static_cast<int>((r + (k % 10) * (cols / 10)) % cols),
-                          value(rng));
+    triplets.emplace_back(static_cast<int>(r % rows),
+                          static_cast<int>((r + (k % 10) * (cols / 10)) % cols), value(rng));
   }
   Eigen::SparseMatrix<double> matrix(rows, cols);
   matrix.setFromTriplets(triplets.begin(), triplets.end());

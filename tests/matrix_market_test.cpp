@@ -1,14 +1,12 @@
 // qualify: tests of the Matrix Market reader and writer against the format's specification.
 // SPDX-License-Identifier: MIT
-#include <qualify/matrix_market.hpp>
-
 #include <doctest/doctest.h>
 
 #include <Eigen/Dense>
 #include <Eigen/SparseCore>
-
 #include <filesystem>
 #include <fstream>
+#include <qualify/matrix_market.hpp>
 #include <random>
 #include <sstream>
 #include <string>
@@ -104,11 +102,13 @@ TEST_CASE("the coordinate example of NISTIR 5935 reads as the matrix printed bes
 
   // The 5 x 5 matrix the report prints above the file (NISTIR 5935, 1996).
   Eigen::MatrixXd expected(5, 5);
+  // clang-format off
   expected << 1, 0, 0, 6, 0,
               0, 10.5, 0, 0, 0,
               0, 0, .015, 0, 0,
               0, 250.5, 0, -280, 33.32,
               0, 0, 0, 0, 12;
+  // clang-format on
   CHECK(dense_of(data) == expected);
 
   auto sparse = qualify::to_sparse(data);
@@ -129,7 +129,9 @@ TEST_CASE("keywords are case-insensitive, comments and blank lines are skipped, 
   INFO(data.message);
   REQUIRE(data.ok);
   Eigen::MatrixXd expected(2, 3);
+  // clang-format off
   expected << 0, 0, 2.5, -0.1, 0, 0;
+  // clang-format on
   CHECK(dense_of(data) == expected);
 }
 
@@ -145,8 +147,10 @@ TEST_CASE("array storage lists every entry in column-major order") {
   CHECK(data.announced_entries == 6);
   CHECK(data.entries.size() == 6);  // zeros included
   Eigen::MatrixXd expected(2, 3);
+  // clang-format off
   expected << 1, 3, 5,
               2, 4, 0;
+  // clang-format on
   CHECK(dense_of(data) == expected);
 
   check_malformed("%%MatrixMarket matrix array real general\n2 2\n1\n2\n3\n", 5,
@@ -165,9 +169,11 @@ TEST_CASE("pattern entries read as ones and duplicates are kept, then summed on 
   CHECK(data.field == matrix_market_field::pattern);
   REQUIRE(data.entries.size() == 4);  // the duplicate is kept
   Eigen::MatrixXd expected(3, 2);
+  // clang-format off
   expected << 2, 0,
               0, 1,
               0, 1;
+  // clang-format on
   CHECK(dense_of(data) == expected);
   auto sparse = qualify::to_sparse(data);
   REQUIRE(sparse.ok);
@@ -186,18 +192,22 @@ TEST_CASE("integer field") {
   REQUIRE(data.ok);
   CHECK(data.field == matrix_market_field::integer);
   Eigen::MatrixXd expected(2, 2);
+  // clang-format off
   expected << 9, 0, 0, -3;
+  // clang-format on
   CHECK(dense_of(data) == expected);
 
-  matrix_market_data array = parse_matrix_market(
-      "%%MatrixMarket matrix array integer general\n1 2\n4\n-5\n");
+  matrix_market_data array =
+      parse_matrix_market("%%MatrixMarket matrix array integer general\n1 2\n4\n-5\n");
   REQUIRE(array.ok);
   CHECK(dense_of(array) == Eigen::RowVector2d(4, -5));
 
   check_malformed("%%MatrixMarket matrix coordinate integer general\n2 2 1\n1 1 1.5\n", 3,
                   "is not an integer");
-  check_malformed("%%MatrixMarket matrix coordinate integer general\n2 2 1\n"
-                  "1 1 99999999999999999999\n", 3, "overflows");
+  check_malformed(
+      "%%MatrixMarket matrix coordinate integer general\n2 2 1\n"
+      "1 1 99999999999999999999\n",
+      3, "overflows");
 }
 
 TEST_CASE("the writer's output reads back to the same matrix, bit for bit") {
@@ -234,7 +244,8 @@ TEST_CASE("the writer's output reads back to the same matrix, bit for bit") {
   SUBCASE("row-major sparse and an empty matrix") {
     Eigen::SparseMatrix<double, Eigen::RowMajor> row_major = dense.sparseView();
     CHECK(dense_of(parse_matrix_market(qualify::to_matrix_market(row_major))) == dense);
-    matrix_market_data empty = parse_matrix_market(qualify::to_matrix_market(Eigen::MatrixXd(3, 0)));
+    matrix_market_data empty =
+        parse_matrix_market(qualify::to_matrix_market(Eigen::MatrixXd(3, 0)));
     REQUIRE(empty.ok);
     CHECK(empty.rows == 3);
     CHECK(empty.cols == 0);
@@ -278,29 +289,35 @@ TEST_CASE("a file of several MiB, read in chunks, gives what was written") {
 TEST_CASE("bad input is reported with its line number") {
   const std::string head = "%%MatrixMarket matrix coordinate real general\n% comment\n";
   SUBCASE("truncated: fewer entries than announced") {
-    check_malformed(head + "3 3 4\n1 1 1\n2 2 2\n", 5, "after 2 of the 4 entries announced on line 3");
+    check_malformed(head + "3 3 4\n1 1 1\n2 2 2\n", 5,
+                    "after 2 of the 4 entries announced on line 3");
     check_malformed(head + "3 3 4\n1 1 1\n2 2 2", 5, "after 2 of the 4 entries");
     check_malformed(head + "3 3 4\n1 1 1\n2 2", 5, "has no value");
     check_malformed(head, 2, "ends before the size line");
   }
   SUBCASE("garbled numbers") {
-    check_malformed(head + "3 3 2\n1 1 1\n2 2 1.2.3\n", 5, "the value '1.2.3' of entry 2 (row 2, column 2) is not a number");
-    check_malformed(head + "3 3 2\n1 1 1\n2 x 1\n", 5, "the column index 'x' of entry 2 is not an integer");
+    check_malformed(head + "3 3 2\n1 1 1\n2 2 1.2.3\n", 5,
+                    "the value '1.2.3' of entry 2 (row 2, column 2) is not a number");
+    check_malformed(head + "3 3 2\n1 1 1\n2 x 1\n", 5,
+                    "the column index 'x' of entry 2 is not an integer");
     check_malformed(head + "3 3 2\n1.0 1 1\n", 4, "the row index '1.0' of entry 1");
     check_malformed(head + "3 3 2\n1 1 1e\n", 4, "is not a number");
     check_malformed(head + "3 3 2\n1 1 0x10\n", 4, "is not a number");
     check_malformed(head + "3 3 2\n1 1 +-1\n", 4, "is not a number");
     check_malformed(head + "3 3 2\n1 1\n", 4, "has no value");
+    check_malformed(head + "3 3 2\n1 1 \x01\x02\n", 4, "the value '?\?' of entry 1");
     check_malformed(head + "3 3 2\n1 1 1 1\n", 4, "one entry per line");
     check_malformed(head + "3 three 2\n", 3, "the column count 'three' on the size line");
     check_malformed(head + "3 3\n", 3, "has no entry count");
     check_malformed(head + "3 3 2 1\n", 3, "unexpected '1' after the sizes");
   }
   SUBCASE("index zero or out of range") {
-    check_malformed(head + "3 3 2\n1 1 1\n0 2 1\n", 5, "the row index of entry 2 is 0; indices are 1-based");
+    check_malformed(head + "3 3 2\n1 1 1\n0 2 1\n", 5,
+                    "the row index of entry 2 is 0; indices are 1-based");
     check_malformed(head + "3 3 2\n1 0 1\n", 4, "the column index of entry 1 is 0");
     check_malformed(head + "3 4 2\n4 1 1\n", 4, "the row index 4 of entry 1 is out of range 1..3");
-    check_malformed(head + "3 4 2\n1 5 1\n", 4, "the column index 5 of entry 1 is out of range 1..4");
+    check_malformed(head + "3 4 2\n1 5 1\n", 4,
+                    "the column index 5 of entry 1 is out of range 1..4");
     check_malformed(head + "3 4 2\n-1 1 1\n", 4, "out of range");
     check_malformed(head + "3 4 2\n1 99999999999999999999 1\n", 4, "overflows a 64-bit index");
   }
@@ -308,7 +325,8 @@ TEST_CASE("bad input is reported with its line number") {
     check_malformed(head + "3 3 2\n1 1 1\n2 3 nan\n", 5, "entry 2 (row 2, column 3) is NaN");
     check_malformed(head + "3 3 2\n3 1 -inf\n", 4, "entry 1 (row 3, column 1) is infinite");
     check_malformed(head + "3 3 2\n3 1 Infinity\n", 4, "is infinite");
-    check_malformed(head + "3 3 2\n1 2 1e999\n", 4, "the value '1e999' of entry 1 (row 1, column 2) overflows");
+    check_malformed(head + "3 3 2\n1 2 1e999\n", 4,
+                    "the value '1e999' of entry 1 (row 1, column 2) overflows");
     check_malformed(head + "3 3 2\n1 2 -12345.6e305\n", 4, "overflows");
     // An underflow rounds to zero, as IEEE arithmetic does; it is not an error.
     matrix_market_data tiny = parse_matrix_market(head + "1 1 2\n1 1 1e-400\n1 1 -0.001e-999\n");
@@ -325,15 +343,19 @@ TEST_CASE("bad input is reported with its line number") {
   }
   SUBCASE("missing header") {
     check_malformed("", 1, "missing header");
-    check_malformed("3 3 1\n1 1 1\n", 1, "missing header: the first line must start with '%%MatrixMarket', found '3 3 1'");
-    check_malformed("% comment\n%%MatrixMarket matrix coordinate real general\n", 1, "missing header");
+    check_malformed(
+        "3 3 1\n1 1 1\n", 1,
+        "missing header: the first line must start with '%%MatrixMarket', found '3 3 1'");
+    check_malformed("% comment\n%%MatrixMarket matrix coordinate real general\n", 1,
+                    "missing header");
     check_malformed(" %%MatrixMarket matrix coordinate real general\n1 1 0\n", 1, "missing header");
     check_malformed("%%MatrixMarketmatrix coordinate real general\n1 1 0\n", 1, "missing header");
     check_malformed("%%MatrixMarket\n1 1 0\n", 1, "names no object");
     check_malformed("%%MatrixMarket matrix coordinate\n", 1, "names no field");
     check_malformed("%%MatrixMarket matrix coordinate real\n", 1, "names no symmetry");
     // A byte-order mark before the banner is tolerated.
-    CHECK(parse_matrix_market("\xEF\xBB\xBF%%MatrixMarket matrix coordinate real general\n1 1 0\n").ok);
+    CHECK(parse_matrix_market("\xEF\xBB\xBF%%MatrixMarket matrix coordinate real general\n1 1 0\n")
+              .ok);
   }
   SUBCASE("negative sizes") {
     check_malformed(head + "-3 3 1\n", 3, "the row count on the size line is negative (-3)");
@@ -341,11 +363,14 @@ TEST_CASE("bad input is reported with its line number") {
     check_malformed(head + "3 3 -1\n", 3, "the entry count on the size line is negative");
   }
   SUBCASE("sizes that overflow") {
-    check_malformed(head + "99999999999999999999 3 1\n", 3, "the row count '99999999999999999999' on the size line overflows a 64-bit index");
+    check_malformed(
+        head + "99999999999999999999 3 1\n", 3,
+        "the row count '99999999999999999999' on the size line overflows a 64-bit index");
     check_malformed("%%MatrixMarket matrix array real general\n4000000000 4000000000\n", 2,
                     "the array size 4000000000 x 4000000000 overflows");
     // An absurd announcement is refused by its data, not by allocating memory for it.
-    check_malformed(head + "1000000000 1000000000 9000000000000000000\n1 1 1\n", 4, "after 1 of the 9000000000000000000 entries");
+    check_malformed(head + "1000000000 1000000000 9000000000000000000\n1 1 1\n", 4,
+                    "after 1 of the 9000000000000000000 entries");
   }
   SUBCASE("a line longer than max_line_length") {
     qualify::matrix_market_options options;
@@ -363,18 +388,26 @@ TEST_CASE("bad input is reported with its line number") {
 TEST_CASE("only real, integer and pattern fields with general symmetry are accepted") {
   // The words of NISTIR 5935, 1996: complex field; symmetric, skew-symmetric and hermitian
   // symmetry; the later 'vector' object. Each is refused by name.
-  auto header = [](const std::string& words) { return "%%MatrixMarket " + words + "\n2 2 1\n1 1 1\n"; };
-  check_malformed(header("matrix coordinate complex general"), 1, "the field 'complex' is not supported");
-  check_malformed(header("matrix coordinate real symmetric"), 1, "the symmetry 'symmetric' is not supported");
-  check_malformed(header("matrix coordinate real skew-symmetric"), 1, "the symmetry 'skew-symmetric' is not supported");
+  auto header = [](const std::string& words) {
+    return "%%MatrixMarket " + words + "\n2 2 1\n1 1 1\n";
+  };
+  check_malformed(header("matrix coordinate complex general"), 1,
+                  "the field 'complex' is not supported");
+  check_malformed(header("matrix coordinate real symmetric"), 1,
+                  "the symmetry 'symmetric' is not supported");
+  check_malformed(header("matrix coordinate real skew-symmetric"), 1,
+                  "the symmetry 'skew-symmetric' is not supported");
   check_malformed(header("matrix coordinate complex Hermitian"), 1, "the field 'complex'");
-  check_malformed(header("matrix coordinate real hermitian"), 1, "the symmetry 'hermitian' is not supported");
-  check_malformed(header("vector coordinate real general"), 1, "the object 'vector' is not supported");
+  check_malformed(header("matrix coordinate real hermitian"), 1,
+                  "the symmetry 'hermitian' is not supported");
+  check_malformed(header("vector coordinate real general"), 1,
+                  "the object 'vector' is not supported");
   check_malformed(header("matrix coordinat real general"), 1, "unknown storage format 'coordinat'");
   check_malformed(header("matrix coordinate double general"), 1, "unknown field 'double'");
   check_malformed(header("matrix coordinate real upper"), 1, "unknown symmetry 'upper'");
   check_malformed(header("matrix coordinate real general extra"), 1, "unexpected word 'extra'");
-  check_malformed(header("matrix array pattern general"), 1, "'pattern' is defined for 'coordinate' storage only");
+  check_malformed(header("matrix array pattern general"), 1,
+                  "'pattern' is defined for 'coordinate' storage only");
 }
 
 TEST_CASE("reading a path tells a missing file from a malformed one") {
@@ -423,14 +456,14 @@ TEST_CASE("assembly refuses failed reads and dense sizes over the limit") {
 
   qualify::matrix_market_options options;
   options.max_dense_entries = 15;
-  matrix_market_data four = parse_matrix_market(
-      "%%MatrixMarket matrix coordinate real general\n4 4 0\n");
+  matrix_market_data four =
+      parse_matrix_market("%%MatrixMarket matrix coordinate real general\n4 4 0\n");
   CHECK_FALSE(qualify::to_dense(four, options).ok);
   options.max_dense_entries = 16;  // rows * cols <= the limit is accepted
   CHECK(qualify::to_dense(four, options).ok);
 
-  matrix_market_data wide = parse_matrix_market(
-      "%%MatrixMarket matrix coordinate real general\n1 4000000000 0\n");
+  matrix_market_data wide =
+      parse_matrix_market("%%MatrixMarket matrix coordinate real general\n1 4000000000 0\n");
   REQUIRE(wide.ok);
   auto too_wide = qualify::to_sparse(wide);
   CHECK_FALSE(too_wide.ok);

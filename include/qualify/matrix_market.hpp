@@ -6,12 +6,10 @@
 // Formats: Initial Design", NISTIR 5935, 1996. Only `general` symmetry is accepted: a Jacobian
 // is rarely symmetric, and expanding a symmetric file silently would hide what was stored.
 
-#include <qualify/report.hpp>
+#include <fmt/format.h>
 
 #include <Eigen/Core>
 #include <Eigen/SparseCore>
-#include <fmt/format.h>
-
 #include <algorithm>
 #include <cerrno>
 #include <charconv>
@@ -23,6 +21,7 @@
 #include <istream>
 #include <limits>
 #include <optional>
+#include <qualify/report.hpp>
 #include <string>
 #include <string_view>
 #include <system_error>
@@ -51,17 +50,23 @@ constexpr std::string_view to_string(matrix_market_format f) noexcept {
 }
 constexpr std::string_view to_string(matrix_market_field f) noexcept {
   switch (f) {
-    case matrix_market_field::integer: return "integer";
-    case matrix_market_field::pattern: return "pattern";
-    case matrix_market_field::real: break;
+    case matrix_market_field::integer:
+      return "integer";
+    case matrix_market_field::pattern:
+      return "pattern";
+    case matrix_market_field::real:
+      break;
   }
   return "real";
 }
 constexpr std::string_view to_string(read_error e) noexcept {
   switch (e) {
-    case read_error::cannot_open: return "cannot_open";
-    case read_error::malformed: return "malformed";
-    case read_error::none: break;
+    case read_error::cannot_open:
+      return "cannot_open";
+    case read_error::malformed:
+      return "malformed";
+    case read_error::none:
+      break;
   }
   return "none";
 }
@@ -139,11 +144,14 @@ inline bool mm_iequals(std::string_view a, std::string_view lower) noexcept {
   return true;
 }
 
-/// A token for a message: quoted, and cut short so a garbled line cannot flood a log.
+/// A token for a message: quoted, cut short and with control bytes shown as '?', so that a
+/// garbled or binary line cannot flood or corrupt a log.
 inline std::string mm_quote(std::string_view token) {
   constexpr std::size_t shown = 40;
-  if (token.size() <= shown) return fmt::format("'{}'", token);
-  return fmt::format("'{}...'", token.substr(0, shown));
+  std::string text(token.substr(0, shown));
+  for (char& c : text)
+    if (static_cast<unsigned char>(c) < 0x20 || c == 0x7f) c = '?';
+  return "'" + text + (token.size() > shown ? "...'" : "'");
 }
 
 enum class mm_number { ok, garbled, overflow };
@@ -171,7 +179,10 @@ inline long mm_decimal_magnitude(std::string_view token) noexcept {
   long leading_fraction_zeros = 0;
   for (; i < token.size(); ++i) {
     char c = token[i];
-    if (c == '.') { seen_point = true; continue; }
+    if (c == '.') {
+      seen_point = true;
+      continue;
+    }
     if (c < '0' || c > '9') break;
     if (c != '0') seen_nonzero = true;
     if (!seen_point && seen_nonzero) ++position;
@@ -220,10 +231,14 @@ class mm_parser {
   bool line(std::string_view text) {
     ++line_no_;
     switch (state_) {
-      case state::header: return header(text);
-      case state::size: return size(text);
-      case state::entries: return entry(text);
-      case state::failed: return false;
+      case state::header:
+        return header(text);
+      case state::size:
+        return size(text);
+      case state::entries:
+        return entry(text);
+      case state::failed:
+        return false;
     }
     return false;
   }
@@ -244,8 +259,9 @@ class mm_parser {
     if (state_ == state::failed) return;
     const std::size_t last = std::max<std::size_t>(line_no_, 1);
     if (state_ == state::header) {
-      malformed(last, "missing header: the file is empty; it must start with "
-                      "'%%MatrixMarket matrix ...'");
+      malformed(last,
+                "missing header: the file is empty; it must start with "
+                "'%%MatrixMarket matrix ...'");
     } else if (state_ == state::size) {
       malformed(last, "the file ends before the size line");
     } else if (read_ < out_.announced_entries) {
@@ -283,16 +299,15 @@ class mm_parser {
     // taken the same way.
     if (text.empty() || text.front() != '%' || !mm_iequals(banner, "%%matrixmarket"))
       return malformed("missing header: the first line must start with '%%MatrixMarket', found " +
-                       mm_quote(text.substr(0, std::min<std::size_t>(text.size(), 40))));
+                       mm_quote(text));
     std::string_view object = mm_next_token(rest);
     std::string_view format = mm_next_token(rest);
     std::string_view field = mm_next_token(rest);
     std::string_view symmetry = mm_next_token(rest);
-    if (object.empty())
-      return malformed("the header names no object; expected 'matrix'");
+    if (object.empty()) return malformed("the header names no object; expected 'matrix'");
     if (!mm_iequals(object, "matrix"))
-      return malformed(fmt::format("the object {} is not supported; only 'matrix' is",
-                                   mm_quote(object)));
+      return malformed(
+          fmt::format("the object {} is not supported; only 'matrix' is", mm_quote(object)));
     if (format.empty())
       return malformed("the header names no storage format; expected 'coordinate' or 'array'");
     if (mm_iequals(format, "coordinate"))
@@ -311,26 +326,28 @@ class mm_parser {
     else if (mm_iequals(field, "pattern"))
       out_.field = matrix_market_field::pattern;
     else if (mm_iequals(field, "complex"))
-      return malformed("the field 'complex' is not supported; only 'real', 'integer' and "
-                       "'pattern' are");
+      return malformed(
+          "the field 'complex' is not supported; only 'real', 'integer' and "
+          "'pattern' are");
     else
       return malformed(fmt::format("unknown field {}; expected 'real', 'integer' or 'pattern'",
                                    mm_quote(field)));
     if (out_.field == matrix_market_field::pattern && out_.format == matrix_market_format::array)
       return malformed("the field 'pattern' is defined for 'coordinate' storage only, not 'array'");
-    if (symmetry.empty())
-      return malformed("the header names no symmetry; expected 'general'");
+    if (symmetry.empty()) return malformed("the header names no symmetry; expected 'general'");
     if (!mm_iequals(symmetry, "general")) {
       for (std::string_view known : {"symmetric", "skew-symmetric", "hermitian"})
         if (mm_iequals(symmetry, known))
-          return malformed(fmt::format("the symmetry {} is not supported; only 'general' is "
-                                       "(write every entry out)", mm_quote(symmetry)));
+          return malformed(
+              fmt::format("the symmetry {} is not supported; only 'general' is "
+                          "(write every entry out)",
+                          mm_quote(symmetry)));
       return malformed(fmt::format("unknown symmetry {}; expected 'general'", mm_quote(symmetry)));
     }
     std::string_view extra = mm_next_token(rest);
     if (!extra.empty())
-      return malformed(fmt::format("unexpected word {} after the symmetry in the header",
-                                   mm_quote(extra)));
+      return malformed(
+          fmt::format("unexpected word {} after the symmetry in the header", mm_quote(extra)));
     state_ = state::size;
     return true;
   }
@@ -339,15 +356,17 @@ class mm_parser {
     if (token.empty())
       return malformed(fmt::format("the size line has no {}; expected '{}'", what,
                                    out_.format == matrix_market_format::coordinate
-                                       ? "rows columns entries" : "rows columns"));
+                                       ? "rows columns entries"
+                                       : "rows columns"));
     switch (mm_parse_index(token, value)) {
       case mm_number::garbled:
-        return malformed(fmt::format("the {} {} on the size line is not an integer", what,
-                                     mm_quote(token)));
+        return malformed(
+            fmt::format("the {} {} on the size line is not an integer", what, mm_quote(token)));
       case mm_number::overflow:
         return malformed(fmt::format("the {} {} on the size line overflows a {}-bit index", what,
                                      mm_quote(token), 8 * sizeof(Index)));
-      case mm_number::ok: break;
+      case mm_number::ok:
+        break;
     }
     if (value < 0)
       return malformed(fmt::format("the {} on the size line is negative ({})", what, value));
@@ -361,8 +380,7 @@ class mm_parser {
     if (!size_number(mm_next_token(rest), "column count", out_.cols)) return false;
     if (out_.format == matrix_market_format::coordinate) {
       if (!size_number(mm_next_token(rest), "entry count", out_.announced_entries)) return false;
-    } else if (out_.cols != 0 &&
-               out_.rows > std::numeric_limits<Index>::max() / out_.cols) {
+    } else if (out_.cols != 0 && out_.rows > std::numeric_limits<Index>::max() / out_.cols) {
       return malformed(fmt::format("the array size {} x {} overflows a {}-bit entry count",
                                    out_.rows, out_.cols, 8 * sizeof(Index)));
     } else {
@@ -370,8 +388,8 @@ class mm_parser {
     }
     std::string_view extra = mm_next_token(rest);
     if (!extra.empty())
-      return malformed(fmt::format("unexpected {} after the sizes on the size line",
-                                   mm_quote(extra)));
+      return malformed(
+          fmt::format("unexpected {} after the sizes on the size line", mm_quote(extra)));
     // Reserve no more than the input can hold (two bytes per entry at the least), so that an
     // absurd announcement cannot allocate memory the data does not back.
     std::uintmax_t cap = input_bytes_ ? *input_bytes_ / 2 + 1 : std::uintmax_t{1} << 16;
@@ -383,8 +401,7 @@ class mm_parser {
   }
 
   bool index(std::string_view token, const char* what, Index bound, Index& value) {
-    if (token.empty())
-      return malformed(fmt::format("entry {} has no {} index", read_ + 1, what));
+    if (token.empty()) return malformed(fmt::format("entry {} has no {} index", read_ + 1, what));
     switch (mm_parse_index(token, value)) {
       case mm_number::garbled:
         return malformed(fmt::format("the {} index {} of entry {} is not an integer", what,
@@ -392,14 +409,15 @@ class mm_parser {
       case mm_number::overflow:
         return malformed(fmt::format("the {} index {} of entry {} overflows a {}-bit index", what,
                                      mm_quote(token), read_ + 1, 8 * sizeof(Index)));
-      case mm_number::ok: break;
+      case mm_number::ok:
+        break;
     }
     if (value == 0)
-      return malformed(fmt::format("the {} index of entry {} is 0; indices are 1-based", what,
-                                   read_ + 1));
+      return malformed(
+          fmt::format("the {} index of entry {} is 0; indices are 1-based", what, read_ + 1));
     if (value < 0 || value > bound)
-      return malformed(fmt::format("the {} index {} of entry {} is out of range 1..{}", what,
-                                   value, read_ + 1, bound));
+      return malformed(fmt::format("the {} index {} of entry {} is out of range 1..{}", what, value,
+                                   read_ + 1, bound));
     --value;
     return true;
   }
@@ -414,27 +432,30 @@ class mm_parser {
       Index integer = 0;
       switch (mm_parse_index(token, integer)) {
         case mm_number::garbled:
-          return malformed(fmt::format("the value {} of {} is not an integer (the field is "
-                                       "'integer')", mm_quote(token), where(row, col)));
+          return malformed(
+              fmt::format("the value {} of {} is not an integer (the field is "
+                          "'integer')",
+                          mm_quote(token), where(row, col)));
         case mm_number::overflow:
           return malformed(fmt::format("the value {} of {} overflows a {}-bit integer",
                                        mm_quote(token), where(row, col), 8 * sizeof(Index)));
-        case mm_number::ok: break;
+        case mm_number::ok:
+          break;
       }
       value = static_cast<double>(integer);  // exact up to 2^53
       return true;
     }
     switch (mm_parse_real(token, value)) {
       case mm_number::garbled:
-        return malformed(fmt::format("the value {} of {} is not a number", mm_quote(token),
-                                     where(row, col)));
+        return malformed(
+            fmt::format("the value {} of {} is not a number", mm_quote(token), where(row, col)));
       case mm_number::overflow:
-        return malformed(fmt::format("the value {} of {} overflows a double", mm_quote(token),
-                                     where(row, col)));
-      case mm_number::ok: break;
+        return malformed(
+            fmt::format("the value {} of {} overflows a double", mm_quote(token), where(row, col)));
+      case mm_number::ok:
+        break;
     }
-    if (std::isnan(value))
-      return malformed(fmt::format("{} is NaN", where(row, col)));
+    if (std::isnan(value)) return malformed(fmt::format("{} is NaN", where(row, col)));
     if (std::isinf(value))
       return malformed(fmt::format("{} is infinite ({})", where(row, col), mm_quote(token)));
     return true;
@@ -488,16 +509,22 @@ void mm_feed_chunks(mm_parser& parser, const matrix_market_options& options, Rea
       if (!found) break;
       std::size_t stop = static_cast<std::size_t>(static_cast<const char*>(found) - buffer.data());
       if (stop - begin > options.max_line_length) {
-        parser.fail(read_error::malformed, fmt::format("the line is longer than {} bytes "
-                    "(max_line_length)", options.max_line_length), parser.next_line());
+        parser.fail(read_error::malformed,
+                    fmt::format("the line is longer than {} bytes "
+                                "(max_line_length)",
+                                options.max_line_length),
+                    parser.next_line());
         return;
       }
       if (!parser.line(std::string_view(buffer.data() + begin, stop - begin))) return;
       begin = stop + 1;
     }
     if (end - begin > options.max_line_length) {
-      parser.fail(read_error::malformed, fmt::format("the line is longer than {} bytes "
-                  "(max_line_length)", options.max_line_length), parser.next_line());
+      parser.fail(read_error::malformed,
+                  fmt::format("the line is longer than {} bytes "
+                              "(max_line_length)",
+                              options.max_line_length),
+                  parser.next_line());
       return;
     }
     if (begin > 0) {
@@ -573,15 +600,15 @@ inline matrix_market_data read_matrix_market(const std::filesystem::path& path,
                                              const matrix_market_options& options = {}) {
   std::error_code ec;
   if (std::filesystem::is_directory(path, ec))
-    return detail::mm_cannot_open(fmt::format("cannot open '{}': it is a directory",
-                                              path.string()));
+    return detail::mm_cannot_open(
+        fmt::format("cannot open '{}': it is a directory", path.string()));
   std::ifstream in(path, std::ios::binary);
   if (!in)
-    return detail::mm_cannot_open(fmt::format("cannot open '{}': {}", path.string(),
-                                              std::strerror(errno)));
+    return detail::mm_cannot_open(
+        fmt::format("cannot open '{}': {}", path.string(), std::strerror(errno)));
   std::uintmax_t bytes = std::filesystem::file_size(path, ec);
-  matrix_market_data out = detail::mm_read_stream(
-      in, options, ec ? std::nullopt : std::optional<std::uintmax_t>(bytes));
+  matrix_market_data out =
+      detail::mm_read_stream(in, options, ec ? std::nullopt : std::optional<std::uintmax_t>(bytes));
   if (out.error == read_error::cannot_open)
     out.message = fmt::format("reading '{}' failed (I/O error)", path.string());
   return out;
@@ -598,8 +625,10 @@ inline assembled_matrix<Eigen::SparseMatrix<double>> to_sparse(const matrix_mark
   using storage_index = Eigen::SparseMatrix<double>::StorageIndex;
   constexpr Index limit = std::numeric_limits<storage_index>::max();
   if (data.rows > limit || data.cols > limit || static_cast<Index>(data.entries.size()) > limit) {
-    result.message = fmt::format("a {} x {} matrix with {} entries exceeds the sparse index "
-                                 "limit {}", data.rows, data.cols, data.entries.size(), limit);
+    result.message = fmt::format(
+        "a {} x {} matrix with {} entries exceeds the sparse index "
+        "limit {}",
+        data.rows, data.cols, data.entries.size(), limit);
     return result;
   }
   std::vector<Eigen::Triplet<double, storage_index>> triplets;
@@ -626,9 +655,10 @@ inline assembled_matrix<Eigen::MatrixXd> to_dense(const matrix_market_data& data
   const auto rows = static_cast<std::uintmax_t>(data.rows);
   const auto cols = static_cast<std::uintmax_t>(data.cols);
   if (cols != 0 && rows > options.max_dense_entries / cols) {
-    result.message = fmt::format("a dense {} x {} matrix exceeds max_dense_entries = {}; "
-                                 "assemble it sparse or raise the limit", data.rows, data.cols,
-                                 options.max_dense_entries);
+    result.message = fmt::format(
+        "a dense {} x {} matrix exceeds max_dense_entries = {}; "
+        "assemble it sparse or raise the limit",
+        data.rows, data.cols, options.max_dense_entries);
     return result;
   }
   result.matrix = Eigen::MatrixXd::Zero(data.rows, data.cols);
@@ -641,8 +671,10 @@ inline assembled_matrix<Eigen::MatrixXd> to_dense(const matrix_market_data& data
 namespace detail {
 
 inline void mm_append_header(fmt::memory_buffer& out, Index rows, Index cols, Index entries) {
-  fmt::format_to(std::back_inserter(out), "%%MatrixMarket matrix coordinate real general\n"
-                                          "{} {} {}\n", rows, cols, entries);
+  fmt::format_to(std::back_inserter(out),
+                 "%%MatrixMarket matrix coordinate real general\n"
+                 "{} {} {}\n",
+                 rows, cols, entries);
 }
 
 inline void mm_append_entry(fmt::memory_buffer& out, Index row, Index col, double value) {
@@ -680,8 +712,8 @@ std::string to_matrix_market(const Eigen::MatrixBase<Derived>& matrix) {
 /// `coordinate real general`.
 template <class Derived>
 std::string to_matrix_market(const Eigen::SparseMatrixBase<Derived>& matrix) {
-  using column_major =
-      Eigen::SparseMatrix<typename Derived::Scalar, Eigen::ColMajor, typename Derived::StorageIndex>;
+  using column_major = Eigen::SparseMatrix<typename Derived::Scalar, Eigen::ColMajor,
+                                           typename Derived::StorageIndex>;
   const column_major m = matrix.derived();
   fmt::memory_buffer out;
   detail::mm_append_header(out, m.rows(), m.cols(), m.nonZeros());

@@ -1,9 +1,8 @@
 // qualify: the program both consumer projects build; it prints verdicts read through the package.
 // SPDX-License-Identifier: MIT
+#include <cstdio>
 #include <qualify/matrix_market.hpp>
 #include <qualify/report.hpp>
-
-#include <cstdio>
 #include <string>
 
 int main() {
