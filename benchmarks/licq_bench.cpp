@@ -30,6 +30,8 @@
 #include <limits>
 #include <random>
 #include <string>
+#include <string_view>
+#include <type_traits>
 #include <vector>
 
 namespace {
@@ -122,12 +124,20 @@ timing eigen_colpiv(const MatrixXd& jacobian) {
 }
 
 #if QUALIFY_BENCH_HAVE_LICQ
+// The report's method, whether it is held as text or as an enum with a to_string.
+template <class Method>
+std::string method_text(const Method& method) {
+  if constexpr (std::is_convertible_v<const Method&, std::string_view>)
+    return std::string(std::string_view(method));
+  else
+    return std::string(to_string(method));
+}
+
 timing ours(const MatrixXd& jacobian) {
   qualify::licq_report report = qualify::check_licq(jacobian);
   timing t;
   t.rank = static_cast<Index>(report.rank);
-  t.note =
-      std::string(qualify::to_string(report.result)) + ", " + std::string(to_string(report.method));
+  t.note = std::string(qualify::to_string(report.result)) + ", " + method_text(report.method);
   return t;
 }
 #endif
