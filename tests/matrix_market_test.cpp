@@ -137,7 +137,8 @@ TEST_CASE("keywords are case-insensitive, comments and blank lines are skipped, 
 }
 
 TEST_CASE("array storage lists every entry in column-major order") {
-  // NISTIR 5935, 1996: array files list the entries column by column (from memory).
+  // NISTIR 5935, 1996, and NIST's Matrix Market format page (math.nist.gov/MatrixMarket/
+  // formats.html): array files give all entries in column-oriented order.
   matrix_market_data data = parse_matrix_market(
       "%%MatrixMarket matrix array real general\n"
       "% a 2 x 3 matrix\n"
@@ -160,8 +161,8 @@ TEST_CASE("array storage lists every entry in column-major order") {
 }
 
 TEST_CASE("pattern entries read as ones and duplicates are kept, then summed on assembly") {
-  // NISTIR 5935, 1996: pattern files give indices only; duplicate entries are summed
-  // when the matrix is assembled (the specification's convention, from memory).
+  // NISTIR 5935, 1996: pattern files give indices only (from memory). Summing duplicate
+  // entries on assembly is common practice for coordinate files, no source.
   matrix_market_data data = parse_matrix_market(
       "%%MatrixMarket matrix coordinate pattern general\n"
       "3 2 4\n1 1\n3 2\n1 1\n2 2\n");

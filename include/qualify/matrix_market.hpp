@@ -82,8 +82,8 @@ struct matrix_market_options {
   std::size_t max_dense_entries = std::size_t{1} << 26;
 };
 
-/// One stored entry, 0-based. Duplicates are kept as read; assembly sums them, as the
-/// format's specification says (NISTIR 5935, 1996).
+/// One stored entry, 0-based. Duplicates are kept as read; assembly sums them (common
+/// practice for coordinate files, no source: NISTIR 5935's examples have no duplicates).
 struct matrix_market_entry {
   Index row = 0;
   Index col = 0;
@@ -472,7 +472,7 @@ class mm_parser {
       if (!index(mm_next_token(rest), "row", out_.rows, e.row)) return false;
       if (!index(mm_next_token(rest), "column", out_.cols, e.col)) return false;
     } else {
-      e.row = read_ % out_.rows;  // column-major order (NISTIR 5935); rows > 0 here
+      e.row = read_ % out_.rows;  // column-oriented order (NISTIR 5935); rows > 0 here
       e.col = read_ / out_.rows;
     }
     if (out_.field == matrix_market_field::pattern)
@@ -614,7 +614,7 @@ inline matrix_market_data read_matrix_market(const std::filesystem::path& path,
   return out;
 }
 
-/// Assembles a sparse matrix, summing duplicate entries (NISTIR 5935). Refuses data that was
+/// Assembles a sparse matrix, summing duplicate entries. Refuses data that was
 /// not read successfully and sizes that do not fit the matrix's int indices.
 inline assembled_matrix<Eigen::SparseMatrix<double>> to_sparse(const matrix_market_data& data) {
   assembled_matrix<Eigen::SparseMatrix<double>> result;
