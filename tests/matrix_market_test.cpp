@@ -384,6 +384,18 @@ TEST_CASE("bad input is reported with its line number") {
     CHECK(data.line == std::optional<std::size_t>(4));
     CHECK(data.message.find("longer than 64 bytes") != std::string::npos);
     CHECK(parse_matrix_market(text).ok);  // the default allows it
+
+    // Lines longer than the 1 MiB read chunk: refused at the default limit, read when allowed.
+    std::string long_comment =
+        head + "% " + std::string(std::size_t{3} << 20, 'x') + "\n1 1 1\n1 1 2\n";
+    matrix_market_data refused = parse_matrix_market(long_comment);
+    CHECK(refused.error == read_error::malformed);
+    CHECK(refused.line == std::optional<std::size_t>(3));
+    options.max_line_length = std::size_t{4} << 20;
+    matrix_market_data allowed = parse_matrix_market(long_comment, options);
+    INFO(allowed.message);
+    REQUIRE(allowed.ok);
+    CHECK(allowed.entries.at(0).value == 2);
   }
 }
 

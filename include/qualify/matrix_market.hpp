@@ -503,30 +503,22 @@ void mm_feed_chunks(mm_parser& parser, const matrix_market_options& options, Rea
   constexpr std::size_t chunk = std::size_t{1} << 20;
   std::vector<char> buffer(chunk);
   std::size_t begin = 0, end = 0;
+  auto too_long = [&] {
+    parser.fail(
+        read_error::malformed,
+        fmt::format("the line is longer than {} bytes (max_line_length)", options.max_line_length),
+        parser.next_line());
+  };
   for (;;) {
     while (begin < end) {
       const void* found = std::memchr(buffer.data() + begin, '\n', end - begin);
       if (!found) break;
       std::size_t stop = static_cast<std::size_t>(static_cast<const char*>(found) - buffer.data());
-      if (stop - begin > options.max_line_length) {
-        parser.fail(read_error::malformed,
-                    fmt::format("the line is longer than {} bytes "
-                                "(max_line_length)",
-                                options.max_line_length),
-                    parser.next_line());
-        return;
-      }
+      if (stop - begin > options.max_line_length) return too_long();
       if (!parser.line(std::string_view(buffer.data() + begin, stop - begin))) return;
       begin = stop + 1;
     }
-    if (end - begin > options.max_line_length) {
-      parser.fail(read_error::malformed,
-                  fmt::format("the line is longer than {} bytes "
-                              "(max_line_length)",
-                              options.max_line_length),
-                  parser.next_line());
-      return;
-    }
+    if (end - begin > options.max_line_length) return too_long();  // no newline in sight
     if (begin > 0) {
       std::memmove(buffer.data(), buffer.data() + begin, end - begin);
       end -= begin;
