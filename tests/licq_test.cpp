@@ -80,10 +80,12 @@ TEST_CASE("prescribed singular values: exact gaps fail, ill-conditioned full ran
     const MatrixXd j = with_singular_values(m, n, sigma, rng);
     const double ref = lapack_singular_values(normalise_rows(j)).minCoeff();
     licq_options options;
-    options.relative_threshold = ref;  // the band (ref/10, 10 ref) is the undecided zone
+    options.relative_threshold = ref / 3;  // (tau, 10 tau) is the undecided zone
     const auto rep = check_licq(j, options);
     QUALIFY_CHECK_VERDICT(rep, verdict::undecided);
-    CHECK(rep.margin == doctest::Approx(1.0).epsilon(0.2));
+    CHECK(rep.margin == doctest::Approx(3.0).epsilon(0.05));
+    options.relative_threshold = ref * 3;  // below tau: dependent to that precision
+    QUALIFY_CHECK_FAILS(check_licq(j, options));
   }
 }
 

@@ -44,8 +44,9 @@ struct licq_options {
   /// usual choice of rank-revealing codes (Golub and Van Loan, Matrix Computations, 4th ed.,
   /// 2013, sec. 5.4.1).
   std::optional<double> relative_threshold;
-  /// The verdict holds when sigma_min >= band * tau, fails when sigma_min <= tau / band and is
-  /// undecided in between (common practice, no source).
+  /// The verdict holds when sigma_min >= band * tau, fails when sigma_min <= tau (below tau a
+  /// direction is indistinguishable from rounding) and is undecided in between, so a matrix
+  /// that is singular to working precision is never certified (common practice, no source).
   double undecided_band = 10.0;
   /// Rows with ||row||_2 <= zero_row_norm are zero gradients (absolute; 0: only exact zeros,
   /// since any non-zero row is a direction once normalised).
@@ -174,7 +175,7 @@ template <class Scalar>
 struct rank_decision {
   Index rank = 0;
   rank_method method = rank_method::none;
-  bool clear = false;           ///< both sides of the gap are bounded away from tau
+  bool clear = false;           ///< sigma_rank >= band * tau and sigma_{rank+1} <= tau, proven
   Scalar kept_lower = 0;        ///< lower bound on sigma_rank (0 when rank == 0)
   Scalar dropped_upper = 0;     ///< upper bound on sigma_{rank+1} (0 when rank == k)
   Scalar smallest_estimate = 0; ///< estimate of sigma_min(T) when rank == k, else of sigma_{rank+1}
@@ -206,7 +207,7 @@ rank_decision<Scalar> decide_rank_pivoted(const matrix<Scalar>& t, Scalar tau, S
     out.dropped_upper = r < p ? out.factor.bottomRightCorner(p - r, k - r).norm() : Scalar(0);
     out.smallest_estimate = out.dropped_upper;
   }
-  out.clear = (r == 0 || out.kept_lower >= band * tau) && out.dropped_upper <= tau / band;
+  out.clear = (r == 0 || out.kept_lower >= band * tau) && out.dropped_upper <= tau;
   if (out.clear || q > svd_limit || q == 0) return out;
 
   // Kahan-type matrices hide a small singular value behind healthy pivots: ask the SVD.
@@ -219,7 +220,7 @@ rank_decision<Scalar> decide_rank_pivoted(const matrix<Scalar>& t, Scalar tau, S
   out.kept_lower = rs > 0 ? s(rs - 1) : Scalar(0);
   out.dropped_upper = rs < q ? s(rs) : Scalar(0);
   out.smallest_estimate = rs == k ? s(q - 1) : out.dropped_upper;
-  out.clear = (rs == 0 || out.kept_lower >= band * tau) && out.dropped_upper <= tau / band;
+  out.clear = (rs == 0 || out.kept_lower >= band * tau) && out.dropped_upper <= tau;
   return out;
 }
 
@@ -302,14 +303,15 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
                              ? rep.largest_singular_value / rep.smallest_singular_value
                              : std::numeric_limits<double>::infinity();
 
-  // The verdict: full rank needs every row, zero rows included, to be independent.
-  const bool full = r == k && rep.zero_rows.empty();
-  if (full && decision.clear) {
+  // The verdict: full rank needs every row, zero rows included, to be independent, with
+  // sigma_min proven >= band * tau; one neglected direction proven <= tau suffices to fail.
+  const bool structural = !rep.zero_rows.empty() || k > n;
+  if (!structural && r == k && (k == 0 || decision.kept_lower >= band * tau)) {
     rep.result = verdict::holds;
     rep.deciding_value = double(decision.kept_lower);
-  } else if (!full && (decision.clear || k > n || r == k)) {
+  } else if (structural || (r < k && decision.dropped_upper <= tau)) {
     rep.result = verdict::fails;
-    rep.deciding_value = r == k ? 0.0 : double(decision.dropped_upper);
+    rep.deciding_value = structural ? 0.0 : double(decision.dropped_upper);
   } else {
     rep.result = verdict::undecided;
     rep.deciding_value = double(r == k ? decision.kept_lower : decision.dropped_upper);
@@ -468,8 +470,8 @@ inline void describe(licq_report& rep, const licq_options& options, double eps) 
                     std::to_string(rep.dependencies.size()) + " dependent" + margin;
       break;
     default:
-      rep.message = "LICQ undecided: the smallest singular value sits within the band of " +
-                    format_figure(options.undecided_band) + " around the threshold" + margin;
+      rep.message = "LICQ undecided: the smallest singular value lies between the threshold and " +
+                    format_figure(options.undecided_band) + " x the threshold" + margin;
   }
 }
 
