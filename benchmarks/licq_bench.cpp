@@ -8,14 +8,7 @@
 // p >= q, 2 q^2 (p - q/3), section 5.2.2; singular values only by Golub-Reinsch bidiagonalisation,
 // 4 p q^2 - 4 q^3 / 3, section 8.6.3) so that methods can be compared on one scale; the ours
 // column uses the QR count whatever method decided.
-#include <qualify/report.hpp>
-
-#if __has_include(<qualify/licq.hpp>)
 #include <qualify/licq.hpp>
-#define QUALIFY_BENCH_HAVE_LICQ 1
-#else
-#define QUALIFY_BENCH_HAVE_LICQ 0
-#endif
 
 #include <cblas.h>
 #include <lapacke.h>
@@ -123,24 +116,14 @@ timing eigen_colpiv(const MatrixXd& jacobian) {
   return t;
 }
 
-#if QUALIFY_BENCH_HAVE_LICQ
-// The report's method, whether it is held as text or as an enum with a to_string.
-template <class Method>
-std::string method_text(const Method& method) {
-  if constexpr (std::is_convertible_v<const Method&, std::string_view>)
-    return std::string(std::string_view(method));
-  else
-    return std::string(to_string(method));
-}
-
 timing ours(const MatrixXd& jacobian) {
   qualify::licq_report report = qualify::check_licq(jacobian);
   timing t;
   t.rank = static_cast<Index>(report.rank);
-  t.note = std::string(qualify::to_string(report.result)) + ", " + method_text(report.method);
+  t.note = std::string(qualify::to_string(report.result)) + ", " +
+           std::string(qualify::to_string(report.method));
   return t;
 }
-#endif
 
 // dgemm on n x n matrices: the machine's practical peak for one thread.
 double dgemm_gflops(int n) {
@@ -175,10 +158,10 @@ MatrixXd make_jacobian(Index m, Index n, bool deficient, std::mt19937_64& rng) {
 int main(int argc, char** argv) {
   openblas_set_num_threads(1);
   const int largest = argc > 1 ? std::atoi(argv[1]) : 2000;
-  std::printf(
-      "licq_bench: OpenBLAS threads %d, Eigen threads %d, ours %s\n", openblas_get_num_threads(),
-      Eigen::nbThreads(),
-      QUALIFY_BENCH_HAVE_LICQ ? "qualify::check_licq" : "not built (no <qualify/licq.hpp>)");
+  const char* coretype = std::getenv("OPENBLAS_CORETYPE");
+  std::printf("licq_bench: OpenBLAS threads %d (core type %s, %s), Eigen threads %d\n",
+              openblas_get_num_threads(), coretype ? coretype : "detected",
+              openblas_get_corename(), Eigen::nbThreads());
   std::printf("\n");
   std::printf("%-11s %-9s %-26s %6s %10s %8s %10s  %s\n", "rows x vars", "kind", "method", "rank",
               "seconds", "GFLOP/s", "ours/this", "note");
@@ -198,20 +181,17 @@ int main(int argc, char** argv) {
         timing t;
       };
       std::vector<row> rows;
-#if QUALIFY_BENCH_HAVE_LICQ
       rows.push_back({"qualify::check_licq", qr_flops, best_of([&] { return ours(jacobian); })});
-#endif
       rows.push_back(
           {"LAPACK dgeqp3 on J^T", qr_flops, best_of([&] { return lapack_qp3(jacobian); })});
       rows.push_back(
           {"LAPACK dgesdd values", svd_flops, best_of([&] { return lapack_sdd(jacobian); })});
       rows.push_back(
           {"Eigen ColPivQR on J^T", qr_flops, best_of([&] { return eigen_colpiv(jacobian); })});
-      const double ours_seconds = QUALIFY_BENCH_HAVE_LICQ ? rows.front().t.seconds : 0;
+      const double ours_seconds = rows.front().t.seconds;
       for (const row& r : rows) {
-        char ratio[32] = "n/a";
-        if (QUALIFY_BENCH_HAVE_LICQ)
-          std::snprintf(ratio, sizeof ratio, "%.2f", ours_seconds / r.t.seconds);
+        char ratio[32];
+        std::snprintf(ratio, sizeof ratio, "%.2f", ours_seconds / r.t.seconds);
         std::printf("%5td x %-4td %-9s %-26s %6td %10.4f %8.2f %10s  %s\n", m, n,
                     deficient ? "rank-5" : "full", r.method, r.t.rank, r.t.seconds,
                     r.flops / r.t.seconds / 1e9, ratio, r.t.note.c_str());

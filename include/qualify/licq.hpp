@@ -320,7 +320,6 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
 
   // Independent rows and the explanation of every dependent one on them.
   for (Index c = 0; c < r; ++c) rep.independent_rows.push_back(to_global(kept[decision.order[c]]));
-  std::sort(rep.independent_rows.begin(), rep.independent_rows.end());
   const Index d = k - r;
   if (d > 0) {
     const auto& f = decision.factor;
@@ -351,9 +350,25 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
       rep.dependencies.push_back(std::move(dep));
     }
 
+    // Which row of a parallel pair is called dependent is arbitrary (pivoting picks by norm);
+    // a person expects the later row (the copy) to be the dependent one, so swap roles.
+    for (std::size_t a = rep.zero_rows.size(); a < rep.dependencies.size(); ++a) {
+      auto& dep = rep.dependencies[a];
+      if (dep.terms.size() != 1 || dep.terms[0].row < dep.row) continue;
+      const Index kept_row = dep.terms[0].row;
+      const double c = dep.terms[0].coefficient;  // g_dep = c * g_kept
+      for (auto& other : rep.dependencies)
+        for (auto& t : other.terms)
+          if (t.row == kept_row && &other != &dep) t = {dep.row, t.coefficient / c};
+      std::replace(rep.independent_rows.begin(), rep.independent_rows.end(), kept_row, dep.row);
+      dep = {kept_row, {{dep.row, 1.0 / c}}, dep.residual};
+    }
+
     // Duplicated, parallel and opposed pairs: one side of every such pair is dependent.
-    const auto classify = [&](Index a, Index b, const auto& ua, const auto& ub) {
-      const Scalar cosine = ua.dot(ub);
+    // Cosines by matrix products; the exact chord only for the few pairs that are close.
+    const matrix<Scalar> cos_kept = unit_dep * unit_kept.transpose();
+    const matrix<Scalar> cos_dep = unit_dep * unit_dep.transpose();
+    const auto classify = [&](Index a, Index b, Scalar cosine, const auto& ua, const auto& ub) {
       if (abs(cosine) < Scalar(0.5)) return;
       const Scalar chord = cosine > 0 ? (ua - ub).norm() : (ua + ub).norm();
       if (chord > parallel_tol) return;
@@ -372,9 +387,9 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
     for (Index c = 0; c < d; ++c) {
       const Index a = kept[decision.order[r + c]];
       for (Index t = 0; t < r; ++t)
-        classify(a, kept[decision.order[t]], unit_dep.row(c), unit_kept.row(t));
+        classify(a, kept[decision.order[t]], cos_kept(c, t), unit_dep.row(c), unit_kept.row(t));
       for (Index t = c + 1; t < d; ++t)
-        classify(a, kept[decision.order[r + t]], unit_dep.row(c), unit_dep.row(t));
+        classify(a, kept[decision.order[r + t]], cos_dep(c, t), unit_dep.row(c), unit_dep.row(t));
     }
     const auto by_rows = [](const row_pair& x, const row_pair& y) {
       return x.first != y.first ? x.first < y.first : x.second < y.second;
@@ -382,6 +397,9 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
     for (auto* list : {&rep.duplicate_rows, &rep.parallel_rows, &rep.opposed_rows})
       std::sort(list->begin(), list->end(), by_rows);
   }
+  std::sort(rep.independent_rows.begin(), rep.independent_rows.end());
+  std::sort(rep.dependencies.begin(), rep.dependencies.end(),
+            [](const row_dependence& x, const row_dependence& y) { return x.row < y.row; });
 
   // The same decision on the gradients as given: sigma_i(D U) lies within
   // [min D, max D] * sigma_i(U), so the normalised bounds settle it unless rows are badly
@@ -401,6 +419,7 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
 /// Findings and the one-sentence message, once every figure is in the report.
 inline void describe(licq_report& rep, const licq_options& options, double eps) {
   const auto& names = rep.names;
+  constexpr std::size_t shown_terms = 8;  // a message stays readable; `dependencies` has all
   for (const auto& dep : rep.dependencies) {
     if (dep.terms.empty() && std::find(rep.zero_rows.begin(), rep.zero_rows.end(), dep.row) !=
                                  rep.zero_rows.end())
@@ -409,11 +428,14 @@ inline void describe(licq_report& rep, const licq_options& options, double eps) 
     std::vector<Index> rows{dep.row};
     bool first = true;
     for (const auto& t : dep.terms) {
+      if (rows.size() > shown_terms) break;  // the report's `dependencies` keep them all
+      rows.push_back(t.row);
       text += (t.coefficient < 0 ? (first ? " -" : " - ") : (first ? " " : " + ")) +
               format_figure(std::abs(t.coefficient)) + "*" + names(t.row);
-      rows.push_back(t.row);
       first = false;
     }
+    if (dep.terms.size() > shown_terms)
+      text += " + " + std::to_string(dep.terms.size() - shown_terms) + " smaller terms";
     if (dep.terms.empty()) text += " 0 (no term above the threshold)";
     text += " (relative residual " + format_figure(dep.residual) + ")";
     add_finding(rep.findings, severity::error, "dependent_row", text, rows, names);
