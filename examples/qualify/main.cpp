@@ -82,16 +82,20 @@ int run_licq(const invocation& in) {
   if (!jacobian) return in.fail(jacobian.error());
   const auto rows = static_cast<std::size_t>(jacobian->rows());
   if (labels_path && labels.size() != rows) {
-    // Labels sit on lines 1..count (blank lines come only at the end).
-    const std::string where =
-        labels.size() > rows ? fmt::format("line {}: ", rows + 1) : std::string();
+    // Label k sits on line k (blank lines come only at the end): name the first label without
+    // a row, or the last one when rows are left without a label.
+    const std::size_t n = labels.size();
+    const std::optional<std::size_t> line =
+        n > rows ? std::optional<std::size_t>(rows + 1)
+                 : n > 0 ? std::optional<std::size_t>(n) : std::nullopt;
     return in.fail({exit_code::data,
-                    fmt::format("{}: {}{} label{} for the {} row{} of {}; one label per row",
-                                shown_name(*labels_path), where, labels.size(),
-                                labels.size() == 1 ? "" : "s", rows, rows == 1 ? "" : "s",
-                                shown_name(path)),
-                    *labels_path,
-                    labels.size() > rows ? std::optional<std::size_t>(rows + 1) : std::nullopt});
+                    fmt::format("{}: {}{} label{} for the {} row{} of {}; {}",
+                                shown_name(*labels_path),
+                                line ? fmt::format("line {}: ", *line) : std::string(), n,
+                                n == 1 ? "" : "s", rows, rows == 1 ? "" : "s", shown_name(path),
+                                n > rows ? "this label has no row"
+                                         : n > 0 ? "the labels end here" : "the file has no label"),
+                    *labels_path, line});
   }
 
   const qualify::licq_report report = qualify::check_licq(*jacobian, options, std::move(labels));
