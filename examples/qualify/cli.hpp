@@ -2,14 +2,13 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
-#include <qualify/json.hpp>
-#include <qualify/report.hpp>
-
 #include <fmt/core.h>
 
 #include <cstdio>
 #include <map>
 #include <optional>
+#include <qualify/json.hpp>
+#include <qualify/report.hpp>
 #include <string>
 #include <string_view>
 #include <utility>
@@ -33,11 +32,16 @@ inline constexpr int output = 74;    ///< standard output could not be written
 /// The exit status of a check's verdict; `invalid_input` is data the check refused.
 inline int exit_for(qualify::verdict v) {
   switch (v) {
-    case qualify::verdict::holds: return exit_code::holds;
-    case qualify::verdict::fails: return exit_code::fails;
-    case qualify::verdict::undecided: return exit_code::undecided;
-    case qualify::verdict::invalid_input: return exit_code::data;
-    case qualify::verdict::not_checked: break;
+    case qualify::verdict::holds:
+      return exit_code::holds;
+    case qualify::verdict::fails:
+      return exit_code::fails;
+    case qualify::verdict::undecided:
+      return exit_code::undecided;
+    case qualify::verdict::invalid_input:
+      return exit_code::data;
+    case qualify::verdict::not_checked:
+      break;
   }
   return exit_code::internal;
 }
@@ -81,14 +85,22 @@ inline std::size_t utf8_sequence_length(std::string_view s, std::size_t i) {
   if (c < 0x80) return 1;
   std::size_t n = 0;
   unsigned char low = 0x80, high = 0xBF;  // range of the second byte
-  if (c >= 0xC2 && c <= 0xDF) n = 2;
-  else if (c == 0xE0) n = 3, low = 0xA0;
-  else if ((c >= 0xE1 && c <= 0xEC) || c == 0xEE || c == 0xEF) n = 3;
-  else if (c == 0xED) n = 3, high = 0x9F;
-  else if (c == 0xF0) n = 4, low = 0x90;
-  else if (c >= 0xF1 && c <= 0xF3) n = 4;
-  else if (c == 0xF4) n = 4, high = 0x8F;
-  else return 0;
+  if (c >= 0xC2 && c <= 0xDF)
+    n = 2;
+  else if (c == 0xE0)
+    n = 3, low = 0xA0;
+  else if ((c >= 0xE1 && c <= 0xEC) || c == 0xEE || c == 0xEF)
+    n = 3;
+  else if (c == 0xED)
+    n = 3, high = 0x9F;
+  else if (c == 0xF0)
+    n = 4, low = 0x90;
+  else if (c >= 0xF1 && c <= 0xF3)
+    n = 4;
+  else if (c == 0xF4)
+    n = 4, high = 0x8F;
+  else
+    return 0;
   if (i + n > s.size()) return 0;
   if (byte(i + 1) < low || byte(i + 1) > high) return 0;
   for (std::size_t k = 2; k < n; ++k)
@@ -162,8 +174,8 @@ inline std::string usage_text(const command_spec& spec) {
   text += spec.description;
   text += "\nOptions:\n";
   const auto add = [&](const option_spec& o) {
-    const std::string head = o.value_name.empty() ? std::string(o.name)
-                                                  : fmt::format("{} {}", o.name, o.value_name);
+    const std::string head =
+        o.value_name.empty() ? std::string(o.name) : fmt::format("{} {}", o.name, o.value_name);
     std::string_view help = o.help;
     bool first = true;
     while (!help.empty() || first) {
@@ -284,7 +296,8 @@ class invocation {
     if (in.operands_.size() < spec.operands.size())
       return usage(fmt::format("missing {} argument", spec.operands[in.operands_.size()]));
     if (in.operands_.size() > spec.operands.size())
-      return usage(fmt::format("unexpected argument {}", quote(in.operands_[spec.operands.size()])));
+      return usage(
+          fmt::format("unexpected argument {}", quote(in.operands_[spec.operands.size()])));
     return in;
   }
 

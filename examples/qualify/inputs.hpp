@@ -2,10 +2,6 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
-#include "cli.hpp"
-
-#include <qualify/matrix_market.hpp>
-
 #include <Eigen/Core>
 #include <charconv>
 #include <cmath>
@@ -13,11 +9,14 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <qualify/matrix_market.hpp>
 #include <string>
 #include <string_view>
 #include <system_error>
 #include <unordered_map>
 #include <vector>
+
+#include "cli.hpp"
 
 namespace qualify_cli {
 
@@ -42,8 +41,8 @@ inline result<Eigen::MatrixXd> read_dense_jacobian(const std::string& path) {
                   : qualify::read_matrix_market(std::filesystem::path(path), options);
   if (!data.ok) {
     if (data.error == qualify::read_error::cannot_open)  // the message names the file
-      return problem{exit_code::no_input,
-                     path == "-" ? "<stdin>: " + data.message : data.message, path, std::nullopt};
+      return problem{exit_code::no_input, path == "-" ? "<stdin>: " + data.message : data.message,
+                     path, std::nullopt};
     return problem{exit_code::data, shown_name(path) + ": " + data.message, path, data.line};
   }
   auto dense = qualify::to_dense(data, options);
@@ -146,7 +145,8 @@ inline result<std::vector<std::string>> read_labels(const std::string& path,
     const auto got = static_cast<std::size_t>(in->gcount());
     pending.append(chunk.data(), got);
     std::size_t begin = 0;
-    for (std::size_t stop; (stop = pending.find('\n', begin)) != std::string::npos; begin = stop + 1) {
+    for (std::size_t stop; (stop = pending.find('\n', begin)) != std::string::npos;
+         begin = stop + 1) {
       if (stop - begin > options.max_line_length)
         return bad(line_no + 1,
                    fmt::format("longer than {} bytes (max_line_length)", options.max_line_length));

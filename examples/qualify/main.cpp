@@ -5,21 +5,20 @@
 // `int run_NAME(const invocation&)` that returns the exit status, and one line in `commands`.
 // Argument parsing, --help, the JSON error object and the exit statuses are shared (cli.hpp);
 // reading Jacobians and labels too (inputs.hpp).
-#include "cli.hpp"
-#include "inputs.hpp"
-
-#include <qualify/format.hpp>
-#include <qualify/json.hpp>
-#include <qualify/licq.hpp>
-#include <qualify/version.hpp>
-
 #include <fmt/core.h>
 
 #include <cstdio>
 #include <exception>
 #include <new>
+#include <qualify/format.hpp>
+#include <qualify/json.hpp>
+#include <qualify/licq.hpp>
+#include <qualify/version.hpp>
 #include <string>
 #include <vector>
+
+#include "cli.hpp"
+#include "inputs.hpp"
 
 namespace exit_code = qualify_cli::exit_code;
 
@@ -63,8 +62,8 @@ int run_licq(const invocation& in) {
   if (const auto tol = in.value("--tol")) {
     const auto x = qualify_cli::parse_open_unit(*tol);
     if (!x)
-      return in.usage_error(fmt::format("--tol must be a finite number in (0, 1), got {}",
-                                        invocation::quote(*tol)));
+      return in.usage_error(
+          fmt::format("--tol must be a finite number in (0, 1), got {}", invocation::quote(*tol)));
     options.relative_threshold = *x;
   }
   const auto labels_path = in.value("--labels");
@@ -85,17 +84,18 @@ int run_licq(const invocation& in) {
     // Label k sits on line k (blank lines come only at the end): name the first label without
     // a row, or the last one when rows are left without a label.
     const std::size_t n = labels.size();
-    const std::optional<std::size_t> line =
-        n > rows ? std::optional<std::size_t>(rows + 1)
-                 : n > 0 ? std::optional<std::size_t>(n) : std::nullopt;
-    return in.fail({exit_code::data,
-                    fmt::format("{}: {}{} label{} for the {} row{} of {}; {}",
-                                shown_name(*labels_path),
-                                line ? fmt::format("line {}: ", *line) : std::string(), n,
-                                n == 1 ? "" : "s", rows, rows == 1 ? "" : "s", shown_name(path),
-                                n > rows ? "this label has no row"
-                                         : n > 0 ? "the labels end here" : "the file has no label"),
-                    *labels_path, line});
+    const std::optional<std::size_t> line = n > rows ? std::optional<std::size_t>(rows + 1)
+                                            : n > 0  ? std::optional<std::size_t>(n)
+                                                     : std::nullopt;
+    return in.fail(
+        {exit_code::data,
+         fmt::format("{}: {}{} label{} for the {} row{} of {}; {}", shown_name(*labels_path),
+                     line ? fmt::format("line {}: ", *line) : std::string(), n, n == 1 ? "" : "s",
+                     rows, rows == 1 ? "" : "s", shown_name(path),
+                     n > rows ? "this label has no row"
+                     : n > 0  ? "the labels end here"
+                              : "the file has no label"),
+         *labels_path, line});
   }
 
   const qualify::licq_report report = qualify::check_licq(*jacobian, options, std::move(labels));
