@@ -1,0 +1,193 @@
+// qualify command: constraint-qualification checks on files dumped from any optimizer.
+// SPDX-License-Identifier: MIT
+//
+// A subcommand is a command_spec (what it accepts, its --help text), one function
+// `int run_NAME(const invocation&)` that returns the exit status, and one line in `commands`.
+// Argument parsing, --help, the JSON error object and the exit statuses are shared (cli.hpp);
+// reading Jacobians and labels too (inputs.hpp).
+#include <fmt/core.h>
+
+#include <cstdio>
+#include <exception>
+#include <new>
+#include <qualify/format.hpp>
+#include <qualify/json.hpp>
+#include <qualify/licq.hpp>
+#include <qualify/version.hpp>
+#include <string>
+#include <vector>
+
+#include "cli.hpp"
+#include "inputs.hpp"
+
+namespace exit_code = qualify_cli::exit_code;
+
+namespace {
+
+using qualify_cli::invocation;
+using qualify_cli::problem;
+using qualify_cli::shown_name;
+
+// ---- licq -----------------------------------------------------------------------------------
+
+const qualify_cli::command_spec licq_spec{
+    "licq",
+    "are the gradients of the active constraints linearly independent (LICQ)?",
+    {"FILE.mtx"},
+    {{"--labels", "FILE",
+      "one label per line, row by row, to name rows in the report\n"
+      "(blank lines at the end are ignored)"},
+     {"--tol", "X",
+      "relative rank threshold tau, a number in (0, 1): a direction of the\n"
+      "row-normalised gradients counts when its singular value exceeds tau\n"
+      "(default: max(rows, columns) * machine epsilon)"}},
+    "Checks the linear independence constraint qualification at a point: the rows of the\n"
+    "Jacobian in FILE.mtx (one row per active constraint: its gradient; one column per\n"
+    "variable) must be linearly independent. Rows are normalised first, so a constraint\n"
+    "multiplied by a constant gives the same verdict.\n"
+    "\n"
+    "FILE.mtx is a Matrix Market file (NISTIR 5935): 'coordinate' or 'array', 'real',\n"
+    "'integer' or 'pattern', 'general' symmetry; duplicate coordinate entries are summed;\n"
+    "'-' reads standard input. The matrix is held dense: rows x columns may not exceed\n"
+    "67108864 entries (512 MiB).\n",
+    "Output: the full report on stdout (verdict, rank, threshold, deciding value and margin,\n"
+    "independent and dependent rows, findings such as dependent_row, duplicate_rows,\n"
+    "opposed_rows, zero_gradient). With --json, one JSON object on one line instead, with\n"
+    "the keys schema_version, check, verdict, message, rank, rows, cols, dependent_rows,\n"
+    "dependencies, findings and more.\n"};
+
+int run_licq(const invocation& in) {
+  const std::string& path = in.operands()[0];
+  qualify::licq_options options;
+  if (const auto tol = in.value("--tol")) {
+    const auto x = qualify_cli::parse_open_unit(*tol);
+    if (!x)
+      return in.usage_error(
+          fmt::format("--tol must be a finite number in (0, 1), got {}", invocation::quote(*tol)));
+    options.relative_threshold = *x;
+  }
+  const auto labels_path = in.value("--labels");
+  if (labels_path && *labels_path == "-" && path == "-")
+    return in.usage_error("the matrix and the labels cannot both come from standard input");
+
+  // Labels first: a mistake there is found before a long matrix read.
+  std::vector<std::string> labels;
+  if (labels_path) {
+    auto read = qualify_cli::read_labels(*labels_path);
+    if (!read) return in.fail(read.error());
+    labels = std::move(*read);
+  }
+  auto jacobian = qualify_cli::read_dense_jacobian(path);
+  if (!jacobian) return in.fail(jacobian.error());
+  const auto rows = static_cast<std::size_t>(jacobian->rows());
+  if (labels_path && labels.size() != rows) {
+    // Label k sits on line k (blank lines come only at the end): name the first label without
+    // a row, or the last one when rows are left without a label.
+    const std::size_t n = labels.size();
+    const std::optional<std::size_t> line = n > rows ? std::optional<std::size_t>(rows + 1)
+                                            : n > 0  ? std::optional<std::size_t>(n)
+                                                     : std::nullopt;
+    return in.fail(
+        {exit_code::data,
+         fmt::format("{}: {}{} label{} for the {} row{} of {}; {}", shown_name(*labels_path),
+                     line ? fmt::format("line {}: ", *line) : std::string(), n, n == 1 ? "" : "s",
+                     rows, rows == 1 ? "" : "s", shown_name(path),
+                     n > rows ? "this label has no row"
+                     : n > 0  ? "the labels end here"
+                              : "the file has no label"),
+         *labels_path, line});
+  }
+
+  const qualify::licq_report report = qualify::check_licq(*jacobian, options, std::move(labels));
+  if (report.result == qualify::verdict::invalid_input)
+    return in.fail({exit_code::data, shown_name(path) + ": " + report.message, path, std::nullopt});
+  if (in.json())
+    fmt::print("{}\n", qualify::to_json(report));
+  else
+    fmt::print("{:f}", report);
+  return qualify_cli::exit_for(report.result);
+}
+
+// ---- dispatch -------------------------------------------------------------------------------
+
+const qualify_cli::command commands[] = {
+    {&licq_spec, run_licq},
+};
+
+std::string top_usage() {
+  std::string text =
+      "Usage: qualify COMMAND [OPTIONS] FILE...\n"
+      "       qualify --help | --version\n"
+      "\n"
+      "Constraint-qualification checks on files dumped from any optimizer.\n"
+      "\n"
+      "Commands:\n";
+  for (const auto& c : commands) text += fmt::format("  {:<8} {}\n", c.spec->name, c.spec->summary);
+  text += "\nRun 'qualify COMMAND --help' for the options of a command.\n\n";
+  text += qualify_cli::exit_status_text;
+  return text;
+}
+
+int run(const std::vector<std::string>& args) {
+  const bool json = qualify_cli::wants_json(args);
+  const auto usage = [&](std::string message) {
+    return qualify_cli::report_problem({exit_code::usage, std::move(message), {}, {}}, "", json);
+  };
+  if (args.empty()) {
+    std::fputs(top_usage().c_str(), stderr);
+    return usage("missing COMMAND");
+  }
+  const std::string& first = args[0];
+  if (first == "-h" || first == "--help") {
+    fmt::print("{}", top_usage());
+    return exit_code::holds;
+  }
+  if (first == "--version") {
+    fmt::print("qualify {}.{}.{}\n", QUALIFY_VERSION_MAJOR, QUALIFY_VERSION_MINOR,
+               QUALIFY_VERSION_PATCH);
+    return exit_code::holds;
+  }
+  if (!first.empty() && first[0] == '-')
+    return usage(fmt::format("unknown option {} before the COMMAND", invocation::quote(first)));
+  for (const auto& c : commands) {
+    if (c.spec->name != first) continue;
+    auto parsed = invocation::parse(*c.spec, {args.begin() + 1, args.end()});
+    if (!parsed) return qualify_cli::report_problem(parsed.error(), c.spec->name, json);
+    if (parsed->help()) {
+      fmt::print("{}", qualify_cli::usage_text(*c.spec));
+      return exit_code::holds;
+    }
+    return c.run(*parsed);
+  }
+  return usage(fmt::format("unknown command {}", invocation::quote(first)));
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  const std::vector<std::string> args(argv + 1, argv + argc);
+  int status = exit_code::internal;
+  // The library throws only for programming errors and out of memory: both end here, as a
+  // message and exit 70, never an abort.
+  const auto internal = [&](std::string message) {
+    try {
+      return qualify_cli::report_problem({exit_code::internal, std::move(message), {}, {}}, "",
+                                         qualify_cli::wants_json(args));
+    } catch (...) {  // nothing more can be said
+      return int(exit_code::internal);
+    }
+  };
+  try {
+    status = run(args);
+  } catch (const std::bad_alloc&) {
+    status = internal("out of memory");
+  } catch (const std::exception& e) {
+    status = internal(fmt::format("internal error: {}", e.what()));
+  }
+  // A full disk or a closed pipe shows up here, not as a silent success.
+  if (std::fflush(stdout) != 0 || std::ferror(stdout)) {
+    std::fputs("qualify: cannot write to standard output\n", stderr);
+    return exit_code::output;
+  }
+  return status;
+}

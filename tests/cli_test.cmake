@@ -1,0 +1,497 @@
+# qualify: tests of the qualify command on files this script writes (verdicts, JSON, labels, errors).
+# SPDX-License-Identifier: MIT
+#
+# cmake -DQUALIFY=<the qualify binary> -DGROUP=<verdicts|json|labels|errors|usage>
+#       -DWORK_DIR=<scratch folder> -DVERSION=<project version> [-DJQ=<jq>] -P cli_test.cmake
+# Every check runs the binary and compares its exit status exactly, so a crash (a signal name
+# instead of a number) fails. JSON is parsed with string(JSON) and, when jq is found, also by
+# jq (a strict parser: string(JSON) accepts trailing commas and text after the object).
+cmake_minimum_required(VERSION 3.19)
+
+foreach(var QUALIFY GROUP WORK_DIR VERSION)
+  if(NOT DEFINED ${var})
+    message(FATAL_ERROR "cli_test.cmake needs -D${var}=...")
+  endif()
+endforeach()
+get_filename_component(QUALIFY "${QUALIFY}" ABSOLUTE)
+file(REMOVE_RECURSE "${WORK_DIR}")
+file(MAKE_DIRECTORY "${WORK_DIR}")
+set_property(GLOBAL PROPERTY cli_failures "")
+set_property(GLOBAL PROPERTY cli_checks 0)
+
+# ---- helpers -------------------------------------------------------------------------------
+
+function(write name text)
+  file(WRITE "${WORK_DIR}/${name}" "${text}")
+endfunction()
+
+# A Matrix Market coordinate file: write_mtx(NAME ROWS COLS "i j v" ...), 1-based entries.
+function(write_mtx name rows cols)
+  list(LENGTH ARGN n)
+  set(text "%%MatrixMarket matrix coordinate real general\n${rows} ${cols} ${n}\n")
+  foreach(entry IN LISTS ARGN)
+    string(APPEND text "${entry}\n")
+  endforeach()
+  write("${name}" "${text}")
+endfunction()
+
+# run(ARGS...): runs qualify in WORK_DIR; sets rc, out, err and cmd in the caller.
+# run(INPUT FILE ARGS...): standard input from FILE.
+function(run)
+  cmake_parse_arguments(RUN "" "INPUT" "" ${ARGN})
+  set(input)
+  if(RUN_INPUT)
+    set(input INPUT_FILE "${WORK_DIR}/${RUN_INPUT}")
+  endif()
+  execute_process(COMMAND "${QUALIFY}" ${RUN_UNPARSED_ARGUMENTS} WORKING_DIRECTORY "${WORK_DIR}"
+                  ${input} RESULT_VARIABLE result OUTPUT_VARIABLE stdout ERROR_VARIABLE stderr)
+  string(REPLACE ";" " " shown "${RUN_UNPARSED_ARGUMENTS}")
+  set(rc "${result}" PARENT_SCOPE)
+  set(out "${stdout}" PARENT_SCOPE)
+  set(err "${stderr}" PARENT_SCOPE)
+  set(cmd "qualify ${shown}" PARENT_SCOPE)
+endfunction()
+
+function(fail what)
+  set_property(GLOBAL APPEND_STRING PROPERTY cli_failures
+               "FAILED ${cmd}: ${what}\n  exit: ${rc}\n  stdout: ${out}\n  stderr: ${err}\n")
+endfunction()
+
+function(count_check)
+  get_property(n GLOBAL PROPERTY cli_checks)
+  math(EXPR n "${n} + 1")
+  set_property(GLOBAL PROPERTY cli_checks ${n})
+endfunction()
+
+function(expect_rc expected)
+  count_check()
+  if(NOT "${rc}" STREQUAL "${expected}")
+    fail("exit status ${rc}, expected ${expected}")
+  endif()
+endfunction()
+
+# expect_in(VAR TEXT): the variable (out or err) holds TEXT.
+function(expect_in var text)
+  count_check()
+  string(FIND "${${var}}" "${text}" at)
+  if(at EQUAL -1)
+    fail("${var} lacks '${text}'")
+  endif()
+endfunction()
+
+function(expect_not_in var text)
+  count_check()
+  string(FIND "${${var}}" "${text}" at)
+  if(NOT at EQUAL -1)
+    fail("${var} holds '${text}'")
+  endif()
+endfunction()
+
+# expect_json(): stdout is exactly one JSON object on one line (jq confirms when present).
+function(expect_json)
+  count_check()
+  string(JSON type ERROR_VARIABLE problem TYPE "${out}")
+  if(NOT type STREQUAL "OBJECT")
+    fail("stdout is not a JSON object (${problem})")
+    return()
+  endif()
+  if(NOT out MATCHES "^{[^\n]*}\n$")
+    fail("stdout is not one line holding one object")
+  endif()
+  if(JQ)
+    file(WRITE "${WORK_DIR}/last_stdout.json" "${out}")
+    execute_process(COMMAND "${JQ}" -s length "${WORK_DIR}/last_stdout.json"
+                    RESULT_VARIABLE jq_rc OUTPUT_VARIABLE jq_out ERROR_VARIABLE jq_err
+                    OUTPUT_STRIP_TRAILING_WHITESPACE)
+    if(NOT jq_rc EQUAL 0 OR NOT jq_out STREQUAL "1")
+      fail("jq does not read exactly one JSON value: ${jq_err}${jq_out}")
+    endif()
+  endif()
+endfunction()
+
+# expect_key(EXPECTED KEY...): the JSON value at the path KEY... of stdout is EXPECTED.
+function(expect_key expected)
+  count_check()
+  string(JSON value ERROR_VARIABLE problem GET "${out}" ${ARGN})
+  if(problem)
+    fail("JSON has no ${ARGN}: ${problem}")
+  elseif(NOT "${value}" STREQUAL "${expected}")
+    fail("JSON ${ARGN} is '${value}', expected '${expected}'")
+  endif()
+endfunction()
+
+function(expect_type expected)
+  count_check()
+  string(JSON value ERROR_VARIABLE problem TYPE "${out}" ${ARGN})
+  if(NOT "${value}" STREQUAL "${expected}")
+    fail("JSON ${ARGN} has type '${value}', expected ${expected} ${problem}")
+  endif()
+endfunction()
+
+function(expect_length expected)
+  count_check()
+  string(JSON value ERROR_VARIABLE problem LENGTH "${out}" ${ARGN})
+  if(problem)
+    fail("JSON has no array ${ARGN}: ${problem}")
+  elseif(NOT "${value}" STREQUAL "${expected}")
+    fail("JSON ${ARGN} has length ${value}, expected ${expected}")
+  endif()
+endfunction()
+
+# expect_error(CODE FILE [LINE]): exit CODE, stderr names FILE (and "line LINE"); run again
+# with --json, stdout is the error object with the same facts.
+function(expect_error code file)
+  set(line "${ARGN}")
+  expect_rc(${code})
+  expect_in(err "'${file}'")
+  if(NOT line STREQUAL "")
+    expect_in(err "line ${line}:")
+  endif()
+  expect_not_in(out "LICQ")  # no report on an error
+  list(APPEND last_args --json)
+  run(${last_args})
+  expect_rc(${code})
+  expect_json()
+  expect_key(1 schema_version)
+  expect_key(invalid_input verdict)
+  expect_key(${code} exit_code)
+  expect_key("${file}" file)
+  string(JSON message ERROR_VARIABLE problem GET "${out}" error)
+  string(FIND "${message}" "'${file}'" at)
+  count_check()
+  if(at EQUAL -1)
+    fail("the JSON error does not name '${file}'")
+  endif()
+  if(NOT line STREQUAL "")
+    expect_key(${line} line)
+  endif()
+endfunction()
+
+# A run whose arguments expect_error can repeat with --json.
+macro(run_args)
+  set(last_args ${ARGN})
+  run(${ARGN})
+endmacro()
+
+# ---- inputs --------------------------------------------------------------------------------
+
+# Hand-checkable: the rows of the identity are orthonormal, rank 3.
+write_mtx(identity.mtx 3 3 "1 1 1" "2 2 1" "3 3 1")
+# H. W. Kuhn and A. W. Tucker, "Nonlinear programming", Proc. Second Berkeley Symposium on
+# Mathematical Statistics and Probability, 1951: min -x1 s.t. x2 - (1 - x1)^3 <= 0, -x2 <= 0.
+# At the minimiser (1, 0) both are active with gradients (0, 3(1 - x1)^2 * 0 + 1) = (0, 1) and
+# (0, -1): opposed rows, rank 1 (hand-checked).
+write_mtx(cusp.mtx 2 2 "1 2 1" "2 2 -1")
+# Hand-checkable: row 3 repeats row 2, so the rank is 2 and rows 1, 2 (0-based) are duplicates.
+write_mtx(duplicate.mtx 3 3 "1 1 1" "2 2 1" "2 3 1" "3 2 1" "3 3 1")
+# H. Scheel and S. Scholtes, "Mathematical programs with complementarity constraints",
+# Math. Oper. Res. 25, 2000: -x1 <= 0, -x2 <= 0, x1 x2 <= 0 at (0, 0) has gradients (-1, 0),
+# (0, -1) and (x2, x1) = (0, 0): a zero row, rank 2 of 3 (hand-checked).
+write_mtx(complementarity.mtx 3 2 "1 1 -1" "2 2 -1")
+# Hand-checked: rows (1, 0) and (1, t), t = 2e-6, as an 'array' file (column by column). For
+# unit rows at angle theta the singular values are sqrt(1 +- cos theta), so sigma_min is
+# t / sqrt(2) = 1.41e-6 to first order: holds at the automatic tau (~4.4e-16), undecided at
+# --tol 1e-6 (within the band of 10 around tau), fails at --tol 1e-4.
+write(near.mtx "%%MatrixMarket matrix array real general\n2 2\n1\n1\n0\n2e-6\n")
+write(cusp.labels "cusp\nx2_nonneg\n\n\n")
+
+# ---- groups --------------------------------------------------------------------------------
+
+if(GROUP STREQUAL "verdicts")
+  run(licq identity.mtx)
+  expect_rc(0)
+  expect_in(out "LICQ holds")
+  expect_in(out "rank         3 on unit gradients")
+
+  run(licq cusp.mtx)
+  expect_rc(1)
+  expect_in(out "LICQ fails: rank 1 of 2")
+  expect_in(out "opposed_rows")
+  expect_in(out "row 1 is opposed to row 0 (ratio -1)")
+
+  run(licq duplicate.mtx)
+  expect_rc(1)
+  expect_in(out "LICQ fails: rank 2 of 3")
+  expect_in(out "row 2 is a duplicate of row 1")
+
+  run(licq complementarity.mtx)
+  expect_rc(1)
+  expect_in(out "LICQ fails: rank 2 of 3")
+  expect_in(out "zero_gradient")
+  expect_in(out "more_rows_than_variables")
+
+  run(licq near.mtx)
+  expect_rc(0)
+  run(licq near.mtx --tol 1e-6)
+  expect_rc(2)
+  expect_in(out "LICQ undecided")
+  expect_in(out "threshold    1e-06 relative (given)")
+  run(licq near.mtx --tol=1e-4)
+  expect_rc(1)
+
+  # Standard input, options before the operand.
+  run(INPUT cusp.mtx licq --tol 1e-9 -)
+  expect_rc(1)
+  expect_in(out "LICQ fails: rank 1 of 2")
+
+  # No active constraint: nothing to be dependent (hand-checkable).
+  write(none.mtx "%%MatrixMarket matrix coordinate real general\n0 4 0\n")
+  run(licq none.mtx)
+  expect_rc(0)
+  expect_in(out "no active constraint")
+
+elseif(GROUP STREQUAL "json")
+  run(licq identity.mtx --json)
+  expect_rc(0)
+  expect_json()
+  expect_key(1 schema_version)
+  expect_key(licq check)
+  expect_key(holds verdict)
+  expect_key(3 rank)
+  expect_key(3 rows)
+  expect_key(3 cols)
+  expect_length(0 dependent_rows)
+  if(NOT err STREQUAL "")
+    fail("stderr is not empty on success")
+  endif()
+
+  run(licq --json cusp.mtx)
+  expect_rc(1)
+  expect_json()
+  expect_key(fails verdict)
+  expect_key(1 rank)
+  expect_key(2 rows)
+  expect_key(2 cols)
+  expect_length(1 dependent_rows)
+  expect_key(0 opposed_rows 0 first)
+  expect_key(1 opposed_rows 0 second)
+  expect_key(-1 opposed_rows 0 ratio)
+
+  run(licq duplicate.mtx --json)
+  expect_rc(1)
+  expect_json()
+  expect_key(2 rank)
+  expect_length(1 dependent_rows)
+  expect_key(1 duplicate_rows 0 first)
+  expect_key(2 duplicate_rows 0 second)
+
+  run(licq complementarity.mtx --json)
+  expect_rc(1)
+  expect_json()
+  expect_key(2 zero_rows 0)
+  expect_key(2 dependent_rows 0)
+
+  run(licq near.mtx --tol 1e-6 --json)
+  expect_rc(2)
+  expect_json()
+  expect_key(undecided verdict)
+  expect_key(2 rank)
+  expect_type(NUMBER relative_threshold_requested)
+  expect_length(0 dependent_rows)
+
+  # Errors of every kind print the error object (checked in detail by the errors group).
+  run(licq missing.mtx --json)
+  expect_rc(66)
+  expect_json()
+  expect_key(invalid_input verdict)
+  run(licq identity.mtx --tol 7 --json)
+  expect_rc(64)
+  expect_json()
+  expect_key(invalid_input verdict)
+  expect_key(64 exit_code)
+  run(frobnicate --json)
+  expect_rc(64)
+  expect_json()
+
+elseif(GROUP STREQUAL "labels")
+  run(licq cusp.mtx --labels cusp.labels)
+  expect_rc(1)
+  expect_in(out "independent  cusp")
+  expect_in(out "dependent    x2_nonneg")
+  expect_in(out "x2_nonneg is opposed to cusp (ratio -1)")
+  expect_not_in(out "row 0")
+
+  run(licq cusp.mtx --labels=cusp.labels --json)
+  expect_rc(1)
+  expect_json()
+  expect_key(cusp labels 0)
+  expect_key(x2_nonneg labels 1)
+  expect_key(x2_nonneg dependencies 0 label)
+  expect_in(out "\"labels\":[\"cusp\",\"x2_nonneg\"]")
+
+  # Windows line ends, blanks around labels, a byte-order mark and UTF-8 are taken.
+  string(ASCII 239 187 191 bom)
+  write(crlf.labels "${bom}  réservoir \r\n\tpump\r\n\r\n")
+  run(licq cusp.mtx --labels crlf.labels)
+  expect_rc(1)
+  expect_in(out "pump is opposed to réservoir")
+
+  # A count that differs names both counts.
+  write(three.labels "a\nb\nc\n")
+  run_args(licq cusp.mtx --labels three.labels)
+  expect_error(65 three.labels 3)
+  expect_in(err "3 labels for the 2 rows of 'cusp.mtx'")
+  write(one.labels "a\n\n")
+  run_args(licq cusp.mtx --labels one.labels)
+  expect_error(65 one.labels 1)
+  expect_in(err "1 label for the 2 rows of 'cusp.mtx'")
+  write(empty.labels "")
+  run_args(licq cusp.mtx --labels empty.labels)
+  expect_error(65 empty.labels)
+  expect_in(err "0 labels for the 2 rows")
+
+  # Bad content, by line.
+  write(gap.labels "a\n\nb\n")
+  run_args(licq cusp.mtx --labels gap.labels)
+  expect_error(65 gap.labels 2)
+  write(twice.labels "a\na\n")
+  run_args(licq cusp.mtx --labels twice.labels)
+  expect_error(65 twice.labels 2)
+  expect_in(err "already on line 1")
+  string(ASCII 1 control)
+  write(control.labels "a\nb${control}\n")
+  run_args(licq cusp.mtx --labels control.labels)
+  expect_error(65 control.labels 2)
+  string(ASCII 233 e_acute_latin1)
+  write(latin1.labels "caf${e_acute_latin1}\nb\n")
+  run_args(licq cusp.mtx --labels latin1.labels)
+  expect_error(65 latin1.labels 1)
+  expect_in(err "not valid UTF-8")
+  string(REPEAT "x" 5000 long)
+  write(long.labels "a\n${long}\n")
+  run_args(licq cusp.mtx --labels long.labels)
+  expect_error(65 long.labels 2)
+
+  # Cannot open: missing, or a folder.
+  run_args(licq cusp.mtx --labels missing.labels)
+  expect_error(66 missing.labels)
+  file(MAKE_DIRECTORY "${WORK_DIR}/folder.labels")
+  run_args(licq cusp.mtx --labels folder.labels)
+  expect_error(66 folder.labels)
+
+elseif(GROUP STREQUAL "errors")
+  run_args(licq missing.mtx)
+  expect_error(66 missing.mtx)
+  file(MAKE_DIRECTORY "${WORK_DIR}/folder.mtx")
+  run_args(licq folder.mtx)
+  expect_error(66 folder.mtx)
+
+  write_mtx(garbled.mtx 2 2 "1 2 1" "2 2 -1.0e+0x")
+  run_args(licq garbled.mtx)
+  expect_error(65 garbled.mtx 4)
+  expect_in(err "is not a number")
+
+  # Truncated: an entry missing, and a file cut inside an entry line.
+  write(short.mtx "%%MatrixMarket matrix coordinate real general\n2 2 3\n1 2 1\n2 2 -1\n")
+  run_args(licq short.mtx)
+  expect_error(65 short.mtx 4)
+  expect_in(err "ends after 2 of the 3 entries")
+  write(cut.mtx "%%MatrixMarket matrix coordinate real general\n2 2 2\n1 2 1\n2 2")
+  run_args(licq cut.mtx)
+  expect_error(65 cut.mtx 4)
+  write(empty.mtx "")
+  run_args(licq empty.mtx)
+  expect_error(65 empty.mtx 1)
+
+  write_mtx(range.mtx 2 2 "1 2 1" "3 2 -1")
+  run_args(licq range.mtx)
+  expect_error(65 range.mtx 4)
+  expect_in(err "out of range 1..2")
+
+  write_mtx(nan.mtx 2 2 "1 2 nan" "2 2 -1")
+  run_args(licq nan.mtx)
+  expect_error(65 nan.mtx 3)
+  expect_in(err "NaN")
+  write_mtx(inf.mtx 2 2 "1 2 1" "2 2 -inf")
+  run_args(licq inf.mtx)
+  expect_error(65 inf.mtx 4)
+
+  write(symmetric.mtx "%%MatrixMarket matrix coordinate real symmetric\n2 2 1\n1 1 1\n")
+  run_args(licq symmetric.mtx)
+  expect_error(65 symmetric.mtx 1)
+  expect_in(err "symmetric")
+
+  write(text.mtx "hello, world\n")
+  run_args(licq text.mtx)
+  expect_error(65 text.mtx 1)
+
+  # The check refuses it (invalid_input): a Jacobian without variables.
+  write(no_columns.mtx "%%MatrixMarket matrix coordinate real general\n2 0 0\n")
+  run_args(licq no_columns.mtx)
+  expect_error(65 no_columns.mtx)
+  expect_in(err "no columns")
+
+  # The dense path keeps the reader's max_dense_entries limit (2^26 entries).
+  write_mtx(huge.mtx 100000 100000 "1 1 1")
+  run_args(licq huge.mtx)
+  expect_error(65 huge.mtx)
+  expect_in(err "max_dense_entries")
+
+elseif(GROUP STREQUAL "usage")
+  run()
+  expect_rc(64)
+  expect_in(err "Usage: qualify COMMAND")
+  run(--help)
+  expect_rc(0)
+  expect_in(out "Usage: qualify COMMAND")
+  expect_in(out "licq")
+  run(licq --help)
+  expect_rc(0)
+  expect_in(out "Usage: qualify licq FILE.mtx [--labels FILE] [--tol X] [--json]")
+  expect_in(out "\"verdict\":\"invalid_input\"")
+  run(licq -h)
+  expect_rc(0)
+  run(--version)
+  expect_rc(0)
+  if(NOT out STREQUAL "qualify ${VERSION}\n")
+    fail("--version prints '${out}', expected 'qualify ${VERSION}'")
+  endif()
+
+  run(licq)
+  expect_rc(64)
+  expect_in(err "missing FILE.mtx argument")
+  run(licq identity.mtx --frobnicate)
+  expect_rc(64)
+  expect_in(err "unknown option '--frobnicate'")
+  run(licq identity.mtx extra.mtx)
+  expect_rc(64)
+  run(licq identity.mtx --tol)
+  expect_rc(64)
+  run(licq identity.mtx --tol 1e-8 --tol 1e-8)
+  expect_rc(64)
+  run(licq identity.mtx --json=yes)
+  expect_rc(64)
+  run(frobnicate identity.mtx)
+  expect_rc(64)
+  expect_in(err "unknown command 'frobnicate'")
+  run(--frobnicate)
+  expect_rc(64)
+  # --tol must parse fully as a finite number in (0, 1).
+  foreach(bad --tol=abc --tol=0 --tol=1 --tol=2 --tol=-0.5 --tol=nan --tol=inf --tol=1e-8x
+          --tol= "--tol= 1e-8" --tol=0x1p-3 --tol=1e-400)
+    run(licq identity.mtx "${bad}")
+    expect_rc(64)
+    expect_in(err "--tol must be a finite number in (0, 1)")
+  endforeach()
+  run(licq identity.mtx --tol 0.05)  # sigma_min 1 >= band 10 * 0.05: holds
+  expect_rc(0)
+  # Usage errors come before files are read: a missing file with a bad option is a usage error.
+  run(licq missing.mtx --tol 0)
+  expect_rc(64)
+
+else()
+  message(FATAL_ERROR "unknown GROUP '${GROUP}'")
+endif()
+
+get_property(failures GLOBAL PROPERTY cli_failures)
+get_property(checks GLOBAL PROPERTY cli_checks)
+if(JQ)
+  set(strict "jq confirmed the JSON")
+else()
+  set(strict "strict JSON check skipped: jq not found")
+endif()
+if(failures)
+  message("${failures}")  # unformatted, as the program printed it
+  message(FATAL_ERROR "cli ${GROUP}: failures among ${checks} checks (above)")
+endif()
+message(STATUS "cli ${GROUP}: ${checks} checks passed (${strict})")
