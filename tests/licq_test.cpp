@@ -330,3 +330,25 @@ TEST_CASE("no rows: LICQ holds vacuously; only zero rows: it fails") {
   QUALIFY_CHECK_FAILS(rep);
   CHECK(rep.zero_rows == std::vector<Index>{0, 1});
 }
+
+TEST_CASE("a few exact combinations are found by deflation, as LAPACK's SVD counts them") {
+  std::mt19937 rng(17);
+  MatrixXd j = gaussian(60, 120, rng);
+  // Rows 10, 30, 50 become combinations of earlier rows.
+  j.row(10) = 0.5 * j.row(2) - 3 * j.row(7);
+  j.row(30) = j.row(11) + j.row(29);
+  j.row(50) = -2 * j.row(49);
+  const auto rep = check_licq(j);
+  QUALIFY_CHECK_FAILS(rep);
+  CHECK(rep.method == rank_method::deflated_qr);
+  CHECK(rep.rank == lapack_rank_of_unit_rows(j, automatic_tau(j)));  // LAPACK dgesdd
+  CHECK(rep.dependent_rows() == std::vector<Index>{10, 30, 50});
+  REQUIRE(rep.dependencies.size() == 3);
+  CHECK(rep.dependencies[0].terms.size() == 2);
+  CHECK(rep.dependencies[0].terms[0].row == 7);
+  CHECK(rep.dependencies[0].terms[0].coefficient == doctest::Approx(-3.0));
+  CHECK(rep.dependencies[0].terms[1].coefficient == doctest::Approx(0.5));
+  for (const auto& d : rep.dependencies) CHECK(d.residual < 1e-13);
+  REQUIRE(rep.opposed_rows.size() == 1);
+  CHECK(rep.opposed_rows[0].ratio == doctest::Approx(-2.0));
+}

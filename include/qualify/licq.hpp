@@ -21,6 +21,7 @@ namespace qualify {
 enum class rank_method {
   none,               ///< nothing was decided (bad input, or not run)
   householder_bound,  ///< unpivoted Householder QR of J^T and a bound on sigma_min from R^{-1}
+  deflated_qr,        ///< R with its rounding-level columns moved last, confirmed by bounds
   pivoted_qr,         ///< column-pivoted QR, confirmed by bounds on both sides of the gap
   svd,                ///< singular values, used when the pivoted QR left the gap unclear
 };
@@ -28,6 +29,7 @@ enum class rank_method {
 constexpr std::string_view to_string(rank_method m) noexcept {
   switch (m) {
     case rank_method::householder_bound: return "householder_bound";
+    case rank_method::deflated_qr: return "deflated_qr";
     case rank_method::pivoted_qr: return "pivoted_qr";
     case rank_method::svd: return "svd";
     case rank_method::none: break;
@@ -224,6 +226,54 @@ rank_decision<Scalar> decide_rank_pivoted(const matrix<Scalar>& t, Scalar tau, S
   return out;
 }
 
+/// The cheap decision for the common failure: a few rows that are exact combinations of
+/// earlier ones leave diagonal entries of the unpivoted R at rounding level. Those columns
+/// move to the end and the staircase they leave is re-triangularised by short Householder
+/// reflections (about 4 (d + 1) k^2 flops for d candidates), giving a column-permuted QR that
+/// is accepted only when proven as in the pivoted path. Empty `order` when it does not apply.
+template <class Scalar>
+rank_decision<Scalar> decide_rank_deflated(const matrix<Scalar>& t, Scalar tau, Scalar band) {
+  rank_decision<Scalar> out;
+  const Index k = t.cols();
+  std::vector<Index> candidates;
+  for (Index j = 0; j < k; ++j)
+    if (std::abs(t(j, j)) <= band * tau) candidates.push_back(j);
+  const Index d = Index(candidates.size());
+  if (d == 0 || 4 * d > k) return out;  // many candidates: the pivoted QR is the better tool
+  for (Index j = 0, c = 0; j < k; ++j) {
+    if (c < d && candidates[c] == j)
+      ++c;
+    else
+      out.order.push_back(j);
+  }
+  out.order.insert(out.order.end(), candidates.begin(), candidates.end());
+  out.factor = t(Eigen::all, out.order);
+  Scalar tau_h(0), beta(0);
+  vector<Scalar> essential(d + 1), workspace(k);
+  for (Index p = 0; p < k; ++p) {
+    // Column p held original column order[p], non-zero down to that row (fill from earlier
+    // reflections stays above it); the moved columns are full below row p.
+    const Index len = p < k - d ? out.order[p] + 1 - p : k - p;
+    if (len <= 1) continue;
+    auto column = out.factor.col(p).segment(p, len);
+    auto tail = essential.head(len - 1);
+    column.makeHouseholder(tail, tau_h, beta);
+    column(0) = beta;
+    column.tail(len - 1).setZero();
+    out.factor.block(p, p + 1, len, k - p - 1)
+        .applyHouseholderOnTheLeft(tail, tau_h, workspace.data());
+  }
+  const Index r = k - d;
+  out.rank = r;
+  out.method = rank_method::deflated_qr;
+  const auto b = bound_smallest_singular_value<Scalar>(out.factor.topLeftCorner(r, r));
+  out.kept_lower = b.lower;
+  out.dropped_upper = out.factor.bottomRightCorner(d, d).norm();  // zero below its diagonal
+  out.smallest_estimate = out.dropped_upper;
+  out.clear = out.kept_lower >= band * tau && out.dropped_upper <= tau;
+  return out;
+}
+
 /// The LICQ analysis of the rows of `jac`; `global` maps its rows to the caller's numbering
 /// (empty: the identity). Inputs have been validated.
 template <class Scalar>
@@ -275,7 +325,11 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
   rank_decision<Scalar> decision;
   decision.clear = k == 0;  // nothing to decide
   bool certified = false;
-  if (k > 0 && k <= n) {
+  // sigma_min of a triangle never exceeds its smallest diagonal entry: skip a bound that
+  // cannot certify.
+  const bool may_certify =
+      k > 0 && k <= n && r_factor.diagonal().cwiseAbs().minCoeff() >= band * tau;
+  if (may_certify) {
     // Most Jacobians a user checks have full rank: R has the singular values of J, and a
     // lower bound from R^{-1} certifies that at matrix-multiply speed, with no pivoting.
     const auto b = bound_smallest_singular_value<Scalar>(r_factor);
@@ -290,7 +344,9 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
       for (Index c = 0; c < k; ++c) decision.order[c] = c;
     }
   }
-  if (!certified && k > 0) decision = decide_rank_pivoted<Scalar>(r_factor, tau, band, options.svd_limit);
+  if (!certified && k > 0 && k <= n) decision = decide_rank_deflated<Scalar>(r_factor, tau, band);
+  if (!certified && k > 0 && !decision.clear)
+    decision = decide_rank_pivoted<Scalar>(r_factor, tau, band, options.svd_limit);
 
   const Index r = decision.rank;
   rep.method = decision.method;
@@ -326,17 +382,19 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
     matrix<Scalar> coef = f.topLeftCorner(r, r).template triangularView<Eigen::Upper>().solve(
         f.topRightCorner(r, d));
     coef = (coef.array().abs() > tau).select(coef, Scalar(0));  // below-threshold terms omitted
-    matrix<Scalar> unit_kept(r, n), unit_dep(d, n);
-    for (Index c = 0; c < r; ++c) {
-      const Index row = kept[decision.order[c]];
-      unit_kept.row(c) = jac.row(row) / norms(row);
-    }
+    // Rows are read from the caller's Jacobian through weights, so nothing of size r x n is
+    // copied: residual = unit_dep - W jac, with W holding coef / norm on the kept rows.
+    matrix<Scalar> unit_dep(d, n), weights = matrix<Scalar>::Zero(d, m);
     for (Index c = 0; c < d; ++c) {
       const Index row = kept[decision.order[r + c]];
       unit_dep.row(c) = jac.row(row) / norms(row);
+      for (Index t = 0; t < r; ++t) {
+        const Index base = kept[decision.order[t]];
+        weights(c, base) = coef(t, c) / norms(base);
+      }
     }
     matrix<Scalar> residual = unit_dep;
-    if (r > 0) residual.noalias() -= coef.transpose() * unit_kept;
+    if (r > 0) residual.noalias() -= weights * jac;
     for (Index c = 0; c < d; ++c) {
       const Index row = kept[decision.order[r + c]];
       row_dependence dep{to_global(row), {}, double(residual.row(c).stableNorm())};
@@ -366,8 +424,10 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
 
     // Duplicated, parallel and opposed pairs: one side of every such pair is dependent.
     // Cosines by matrix products; the exact chord only for the few pairs that are close.
-    const matrix<Scalar> cos_kept = unit_dep * unit_kept.transpose();
-    const matrix<Scalar> cos_dep = unit_dep * unit_dep.transpose();
+    // Cosines with every row by one product; the exact chord only for the few close pairs.
+    matrix<Scalar> cosines = unit_dep * jac.transpose();
+    std::vector<Index> dep_position(std::size_t(m), -1);
+    for (Index c = 0; c < d; ++c) dep_position[kept[decision.order[r + c]]] = c;
     const auto classify = [&](Index a, Index b, Scalar cosine, const auto& ua, const auto& ub) {
       if (abs(cosine) < Scalar(0.5)) return;
       const Scalar chord = cosine > 0 ? (ua - ub).norm() : (ua + ub).norm();
@@ -386,10 +446,10 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
     };
     for (Index c = 0; c < d; ++c) {
       const Index a = kept[decision.order[r + c]];
-      for (Index t = 0; t < r; ++t)
-        classify(a, kept[decision.order[t]], cos_kept(c, t), unit_dep.row(c), unit_kept.row(t));
-      for (Index t = c + 1; t < d; ++t)
-        classify(a, kept[decision.order[r + t]], cos_dep(c, t), unit_dep.row(c), unit_dep.row(t));
+      for (Index b : kept) {
+        if (b == a || (dep_position[b] >= 0 && dep_position[b] < c)) continue;  // once a pair
+        classify(a, b, cosines(c, b) / norms(b), unit_dep.row(c), jac.row(b) / norms(b));
+      }
     }
     const auto by_rows = [](const row_pair& x, const row_pair& y) {
       return x.first != y.first ? x.first < y.first : x.second < y.second;
