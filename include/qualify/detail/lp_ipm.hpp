@@ -1,0 +1,415 @@
+// qualify: the LP engine's homogeneous self-dual interior-point method (Mehrotra steps).
+// SPDX-License-Identifier: MIT
+#pragma once
+
+#include <Eigen/Cholesky>
+#include <Eigen/Core>
+#include <Eigen/SparseCholesky>
+#include <Eigen/SparseCore>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <string>
+#include <vector>
+
+#include "qualify/detail/lp_presolve.hpp"
+
+namespace qualify::detail {
+
+/// The standard form the interior-point method solves:
+/// minimise c^T x s.t. A x = b, 0 <= x, x_j <= u_j where u_j is finite.
+/// Columns [0, n_struct) come from the general form's columns (a free column gives two),
+/// the rest are slacks of inequality rows (one -1 entry each).
+struct lp_standard {
+  lp_sparse A;
+  Eigen::VectorXd b, c, u;  // u_j = +inf: no upper bound
+  double c0 = 0.0;
+  Eigen::Index n_struct = 0;
+  struct origin {
+    bool slack = false;       // slack of a row, else a general column
+    Eigen::Index index = 0;   // that row or column
+    double sign = 1.0;        // general value = shift + sign * x_k
+    double shift = 0.0;
+  };
+  std::vector<origin> from;
+};
+
+/// Builds the standard form of a general LP whose fixed columns and free rows are gone.
+inline lp_standard to_standard(const lp_general& p) {
+  using Eigen::Index;
+  const double inf = std::numeric_limits<double>::infinity();
+  const Index m = p.A.rows(), n = p.A.cols();
+  lp_standard s;
+  s.c0 = p.c0;
+  s.b = Eigen::VectorXd::Zero(m);
+  std::vector<double> c, u;
+  std::vector<Eigen::Triplet<double, Index>> t;
+  auto add_column = [&](lp_standard::origin o, double cost, double upper) {
+    s.from.push_back(o);
+    c.push_back(cost);
+    u.push_back(upper);
+    return static_cast<Index>(s.from.size()) - 1;
+  };
+  for (Index j = 0; j < n; ++j) {
+    const double lo = p.col_lower[j], up = p.col_upper[j];
+    auto entries = [&](Index k, double sign) {
+      for (lp_sparse::InnerIterator it(p.A, j); it; ++it) t.emplace_back(it.row(), k, sign * it.value());
+    };
+    auto shift_rows = [&](double shift) {
+      for (lp_sparse::InnerIterator it(p.A, j); it; ++it) s.b[it.row()] -= it.value() * shift;
+      s.c0 += p.c[j] * shift;
+    };
+    if (std::isfinite(lo)) {
+      Index k = add_column({false, j, 1.0, lo}, p.c[j], std::isfinite(up) ? up - lo : inf);
+      entries(k, 1.0);
+      shift_rows(lo);
+    } else if (std::isfinite(up)) {
+      Index k = add_column({false, j, -1.0, up}, -p.c[j], inf);
+      entries(k, -1.0);
+      shift_rows(up);
+    } else {  // free: x = x+ - x-
+      entries(add_column({false, j, 1.0, 0.0}, p.c[j], inf), 1.0);
+      entries(add_column({false, j, -1.0, 0.0}, -p.c[j], inf), -1.0);
+    }
+  }
+  s.n_struct = static_cast<Index>(s.from.size());
+  for (Index i = 0; i < m; ++i) {
+    const double lo = p.row_lower[i], up = p.row_upper[i];
+    if (lo == up) {
+      s.b[i] += lo;
+      continue;
+    }
+    // Row activity r = a_i x = shift + sign * slack, so a_i x - sign * slack = shift.
+    Index k;
+    if (std::isfinite(lo)) {
+      k = add_column({true, i, 1.0, lo}, 0.0, std::isfinite(up) ? up - lo : inf);
+      t.emplace_back(i, k, -1.0);
+      s.b[i] += lo;
+    } else if (std::isfinite(up)) {
+      k = add_column({true, i, -1.0, up}, 0.0, inf);
+      t.emplace_back(i, k, 1.0);
+      s.b[i] += up;
+    }
+    // A row free on both sides never reaches here: presolve or the caller drops it.
+  }
+  const auto N = static_cast<Index>(s.from.size());
+  s.A.resize(m, N);
+  s.A.setFromTriplets(t.begin(), t.end());
+  s.A.makeCompressed();
+  s.c = Eigen::Map<Eigen::VectorXd>(c.data(), N);
+  s.u = Eigen::Map<Eigen::VectorXd>(u.data(), N);
+  return s;
+}
+
+/// Settings of the interior-point method (filled from lp_options).
+struct ipm_settings {
+  double primal_tolerance = 1e-8;
+  double dual_tolerance = 1e-8;
+  double gap_tolerance = 1e-8;
+  double infeasibility_tolerance = 1e-8;
+  int max_iterations = 200;
+  double step_fraction = 0.995;
+  double regularization = 1e-10;
+  bool dense = false;
+};
+
+enum class ipm_status { optimal, primal_infeasible, dual_infeasible, iteration_limit, numerical_trouble };
+
+struct ipm_result {
+  ipm_status status = ipm_status::numerical_trouble;
+  Eigen::VectorXd x, y, s, v;  // solution (divided by tau) or ray (not divided)
+  int iterations = 0;
+  double primal_residual = 0, dual_residual = 0, gap = 0;  // relative, as tested
+  double tau = 1, kappa = 1;
+  std::string message;
+};
+
+/// Factors M = A diag(d) A^T + delta I, densely or sparsely, and solves with it.
+class normal_equations {
+ public:
+  normal_equations(const lp_sparse& A, Eigen::Index n_struct, bool dense)
+      : A_(A), n_struct_(n_struct), dense_(dense) {
+    if (dense_) {
+      Ad_ = Eigen::MatrixXd(A.leftCols(n_struct));
+      for (Eigen::Index k = n_struct; k < A.cols(); ++k)
+        for (lp_sparse::InnerIterator it(A, k); it; ++it) slack_rows_.push_back({it.row(), it.value()});
+    }
+  }
+
+  /// Returns false when the factorisation fails even after raising delta.
+  bool factor(const Eigen::VectorXd& d, double delta) {
+    d_ = d;
+    for (int attempt = 0; attempt < 6; ++attempt, delta *= 100) {
+      delta_ = delta;
+      if (dense_) {
+        const Eigen::Index m = Ad_.rows();
+        Eigen::MatrixXd M = Eigen::MatrixXd::Zero(m, m);
+        Eigen::VectorXd root = d.head(n_struct_).cwiseSqrt();
+        M.selfadjointView<Eigen::Lower>().rankUpdate(Ad_ * root.asDiagonal());
+        for (std::size_t k = 0; k < slack_rows_.size(); ++k) {
+          auto [row, a] = slack_rows_[k];
+          M(row, row) += a * a * d[n_struct_ + static_cast<Eigen::Index>(k)];
+        }
+        M.diagonal().array() += delta;
+        llt_.compute(M);
+        if (llt_.info() == Eigen::Success) return true;
+      } else {
+        lp_sparse AD = A_ * d.cwiseSqrt().asDiagonal();
+        lp_sparse M = AD * AD.transpose();
+        if (!analysed_) {
+          ldlt_.analyzePattern(M);
+          analysed_ = true;
+          pattern_nnz_ = M.nonZeros();
+        } else if (M.nonZeros() != pattern_nnz_) {
+          ldlt_.analyzePattern(M);
+          pattern_nnz_ = M.nonZeros();
+        }
+        ldlt_.setShift(delta);
+        ldlt_.factorize(M);
+        if (ldlt_.info() == Eigen::Success && (ldlt_.vectorD().array() > 0).all()) return true;
+      }
+    }
+    return false;
+  }
+
+  /// Solves M x = r with two steps of iterative refinement against the unshifted M.
+  Eigen::VectorXd solve(const Eigen::VectorXd& r) const {
+    Eigen::VectorXd x = raw_solve(r);
+    for (int k = 0; k < 2; ++k) {
+      Eigen::VectorXd res = r - apply(x);
+      x += raw_solve(res);
+    }
+    return x;
+  }
+
+  Eigen::VectorXd apply(const Eigen::VectorXd& y) const {
+    Eigen::VectorXd t = A_.transpose() * y;
+    t.array() *= d_.array();
+    return A_ * t;
+  }
+
+ private:
+  Eigen::VectorXd raw_solve(const Eigen::VectorXd& r) const {
+    return dense_ ? Eigen::VectorXd(llt_.solve(r)) : Eigen::VectorXd(ldlt_.solve(r));
+  }
+
+  const lp_sparse& A_;
+  Eigen::Index n_struct_;
+  bool dense_;
+  Eigen::MatrixXd Ad_;
+  std::vector<std::pair<Eigen::Index, double>> slack_rows_;
+  Eigen::VectorXd d_;
+  double delta_ = 0;
+  Eigen::LLT<Eigen::MatrixXd> llt_;
+  Eigen::SimplicialLDLT<lp_sparse, Eigen::Lower, Eigen::AMDOrdering<Eigen::Index>> ldlt_;
+  bool analysed_ = false;
+  Eigen::Index pattern_nnz_ = 0;
+};
+
+/// The homogeneous self-dual model (Xu, Hung and Ye, Annals of OR 62, 1996; with upper
+/// bounds as in Andersen and Andersen, "The MOSEK interior point optimizer for linear
+/// programming", 2000):
+///   A x = b tau,  x_U + w = u tau,  A^T y - v_U + s = c tau,  b^T y - u^T v - c^T x = kappa,
+/// x, w, s, v, tau, kappa >= 0. tau > 0 at the limit gives a solution (x/tau, y/tau);
+/// kappa > 0 gives a ray proving infeasibility (b^T y - u^T v > 0) or unboundedness
+/// (c^T x < 0).
+class hsd_solver {
+ public:
+  hsd_solver(const lp_standard& p, const ipm_settings& set)
+      : p_(p), set_(set), ne_(p.A, p.n_struct, set.dense) {
+    const Eigen::Index N = p.A.cols();
+    boxed_ = Eigen::VectorXd::Zero(N);
+    ub_ = Eigen::VectorXd::Zero(N);
+    for (Eigen::Index j = 0; j < N; ++j)
+      if (std::isfinite(p.u[j])) {
+        boxed_[j] = 1.0;
+        ub_[j] = p.u[j];
+      }
+    n_boxed_ = static_cast<Eigen::Index>(boxed_.sum());
+  }
+
+  ipm_result solve() {
+    using Eigen::VectorXd;
+    const Eigen::Index N = p_.A.cols(), m = p_.A.rows();
+    const auto& A = p_.A;
+    const auto& b = p_.b;
+    const auto& c = p_.c;
+    VectorXd x = VectorXd::Ones(N), s = VectorXd::Ones(N), w = boxed_, v = boxed_;
+    VectorXd y = VectorXd::Zero(m);
+    double tau = 1, kappa = 1;
+    const double nb = 1 + std::max(b.size() ? b.lpNorm<Eigen::Infinity>() : 0.0,
+                                   ub_.size() ? ub_.lpNorm<Eigen::Infinity>() : 0.0);
+    const double nc = 1 + (c.size() ? c.lpNorm<Eigen::Infinity>() : 0.0);
+    const double complementarity_count = static_cast<double>(N + n_boxed_ + 1);
+    ipm_result r;
+    int slow_steps = 0;
+
+    for (int iter = 0;; ++iter) {
+      r.iterations = iter;
+      // Residuals F of the homogeneous model.
+      VectorXd F1 = A * x - b * tau;
+      VectorXd F2 = (x + w - ub_ * tau).cwiseProduct(boxed_);
+      VectorXd Aty = A.transpose() * y;
+      VectorXd F3 = Aty - v + s - c * tau;
+      const double cx = c.dot(x), by = b.dot(y) - ub_.dot(v);
+      const double F4 = -cx + by - kappa;
+      const double mu = (x.dot(s) + w.dot(v) + tau * kappa) / complementarity_count;
+
+      r.primal_residual = std::max(F1.lpNorm<Eigen::Infinity>(), F2.lpNorm<Eigen::Infinity>()) / tau / nb;
+      r.dual_residual = F3.lpNorm<Eigen::Infinity>() / tau / nc;
+      r.gap = std::abs(cx - by) / tau / (1 + std::abs(cx / tau));
+      r.tau = tau;
+      r.kappa = kappa;
+      if (!std::isfinite(mu) || !std::isfinite(r.primal_residual) || !std::isfinite(r.dual_residual)) {
+        r.status = ipm_status::numerical_trouble;
+        r.message = "the iterates are no longer finite";
+        return r;
+      }
+      if (r.primal_residual <= set_.primal_tolerance && r.dual_residual <= set_.dual_tolerance &&
+          r.gap <= set_.gap_tolerance) {
+        r.status = ipm_status::optimal;
+        r.x = x / tau;
+        r.y = y / tau;
+        r.s = s / tau;
+        r.v = v / tau;
+        return r;
+      }
+      // Rays: a dual ray (y, v, s) with A^T y - v + s ~ 0 and b^T y - u^T v > 0 proves
+      // primal infeasibility; a primal ray x with A x ~ 0, x_U + w ~ 0, c^T x < 0
+      // proves dual infeasibility. Tested relative to the ray's own value, and only once
+      // kappa dominates tau; the caller verifies the ray on the original problem.
+      if (kappa > tau) {
+        const double dual_ray = (Aty - v + s).lpNorm<Eigen::Infinity>();
+        if (by > 0 && dual_ray <= set_.infeasibility_tolerance * by) {
+          r.status = ipm_status::primal_infeasible;
+          r.y = y / by;
+          r.v = v / by;
+          r.s = s / by;
+          r.x = x;
+          return r;
+        }
+        const double primal_ray = std::max((A * x).lpNorm<Eigen::Infinity>(),
+                                           (x + w).cwiseProduct(boxed_).lpNorm<Eigen::Infinity>());
+        if (cx < 0 && primal_ray <= set_.infeasibility_tolerance * -cx) {
+          r.status = ipm_status::dual_infeasible;
+          r.x = x / -cx;
+          r.y = y;
+          return r;
+        }
+      }
+      if (iter >= set_.max_iterations) {
+        r.status = ipm_status::iteration_limit;
+        r.x = x / tau;
+        r.y = y / tau;
+        r.s = s / tau;
+        r.v = v / tau;
+        r.message = "the iteration limit was reached";
+        return r;
+      }
+
+      // Newton system: D = X^-1 S + W^-1 V, M = A D^-1 A^T.
+      VectorXd D(N), g(N), winv(N);
+      for (Eigen::Index j = 0; j < N; ++j) {
+        winv[j] = boxed_[j] > 0 ? 1.0 / w[j] : 0.0;
+        D[j] = s[j] / x[j] + v[j] * winv[j] + set_.regularization;
+        g[j] = v[j] * winv[j] * ub_[j];
+      }
+      VectorXd Dinv = D.cwiseInverse();
+      if (!ne_.factor(Dinv, set_.regularization)) {
+        r.status = ipm_status::numerical_trouble;
+        r.message = "the normal equations could not be factored";
+        r.x = x / tau;
+        r.y = y / tau;
+        return r;
+      }
+      VectorXd q = ne_.solve(b + A * Dinv.cwiseProduct(c - g));
+      VectorXd xq = Dinv.cwiseProduct(A.transpose() * q + g - c);
+      const double den = -(c + g).dot(xq) + b.dot(q) + ub_.cwiseProduct(ub_).dot(v.cwiseProduct(winv)) +
+                         kappa / tau;
+
+      struct direction {
+        VectorXd dx, dw, ds, dv, dy;
+        double dtau = 0, dkappa = 0;
+      };
+      auto newton = [&](double eta, const VectorXd& R5, const VectorXd& R6, double R7) {
+        direction d;
+        VectorXd R2 = -eta * F2;
+        VectorXd R3 = -eta * F3;
+        VectorXd h = R3 - R5.cwiseQuotient(x) + (R6 - v.cwiseProduct(R2)).cwiseProduct(winv);
+        VectorXd p = ne_.solve(-eta * F1 + A * Dinv.cwiseProduct(h));
+        VectorXd xp = Dinv.cwiseProduct(A.transpose() * p - h);
+        const double num = -eta * F4 + ub_.dot((R6 - v.cwiseProduct(R2)).cwiseProduct(winv)) + R7 / tau +
+                           (c + g).dot(xp) - b.dot(p);
+        d.dtau = num / den;
+        d.dy = p + q * d.dtau;
+        d.dx = xp + xq * d.dtau;
+        d.ds = (R5 - s.cwiseProduct(d.dx)).cwiseQuotient(x);
+        d.dw = (R2 - d.dx + ub_ * d.dtau).cwiseProduct(boxed_);
+        d.dv = (R6 - v.cwiseProduct(d.dw)).cwiseProduct(winv);
+        d.dkappa = (R7 - kappa * d.dtau) / tau;
+        return d;
+      };
+      auto max_step = [&](const direction& d) {
+        double a = 1.0;
+        auto limit = [&a](const VectorXd& z, const VectorXd& dz, const VectorXd* mask) {
+          for (Eigen::Index j = 0; j < z.size(); ++j)
+            if (dz[j] < 0 && (!mask || (*mask)[j] > 0)) a = std::min(a, -z[j] / dz[j]);
+        };
+        limit(x, d.dx, nullptr);
+        limit(s, d.ds, nullptr);
+        limit(w, d.dw, &boxed_);
+        limit(v, d.dv, &boxed_);
+        if (d.dtau < 0) a = std::min(a, -tau / d.dtau);
+        if (d.dkappa < 0) a = std::min(a, -kappa / d.dkappa);
+        return a;
+      };
+
+      // Predictor (affine scaling), then Mehrotra's corrector (Mehrotra, SIAM J. Optim. 2,
+      // 1992): sigma = (mu_aff / mu)^3 and the second-order term dX_aff dS_aff.
+      VectorXd xs = x.cwiseProduct(s), wv = w.cwiseProduct(v);
+      direction aff = newton(1.0, -xs, -wv, -tau * kappa);
+      const double a_aff = max_step(aff);
+      const double mu_aff = ((x + a_aff * aff.dx).dot(s + a_aff * aff.ds) +
+                             (w + a_aff * aff.dw).dot(v + a_aff * aff.dv) +
+                             (tau + a_aff * aff.dtau) * (kappa + a_aff * aff.dkappa)) /
+                            complementarity_count;
+      const double sigma = std::clamp(std::pow(mu_aff / mu, 3), 0.0, 1.0);
+      VectorXd R5 = -xs - aff.dx.cwiseProduct(aff.ds);
+      R5.array() += sigma * mu;
+      VectorXd R6 = (-wv - aff.dw.cwiseProduct(aff.dv) + VectorXd::Constant(N, sigma * mu)).cwiseProduct(boxed_);
+      const double R7 = -tau * kappa - aff.dtau * aff.dkappa + sigma * mu;
+      direction d = newton(1.0 - sigma, R5, R6, R7);
+      const double a = std::min(1.0, set_.step_fraction * max_step(d));
+      if (!std::isfinite(a)) {
+        r.status = ipm_status::numerical_trouble;
+        r.message = "the Newton direction is not finite";
+        return r;
+      }
+      slow_steps = a < 1e-6 ? slow_steps + 1 : 0;
+      if (slow_steps >= 5) {
+        r.status = ipm_status::numerical_trouble;
+        r.message = "five successive steps shorter than 1e-6";
+        r.x = x / tau;
+        r.y = y / tau;
+        return r;
+      }
+      x += a * d.dx;
+      s += a * d.ds;
+      w += a * d.dw;
+      v += a * d.dv;
+      y += a * d.dy;
+      tau += a * d.dtau;
+      kappa += a * d.dkappa;
+    }
+  }
+
+ private:
+  const lp_standard& p_;
+  ipm_settings set_;
+  normal_equations ne_;
+  Eigen::VectorXd boxed_, ub_;
+  Eigen::Index n_boxed_ = 0;
+};
+
+}  // namespace qualify::detail
