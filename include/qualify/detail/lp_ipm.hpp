@@ -110,7 +110,7 @@ struct ipm_settings {
   double infeasibility_tolerance = 1e-8;
   int max_iterations = 200;
   double step_fraction = 0.995;
-  double regularization = 1e-10;
+  double regularization = 1e-12;
   bool dense = false;
 };
 
@@ -261,6 +261,10 @@ class hsd_solver {
       r.gap = std::abs(cx - by) / tau / (1 + std::abs(cx / tau));
       r.tau = tau;
       r.kappa = kappa;
+#ifdef QUALIFY_LP_TRACE
+      std::fprintf(stderr, "%3d pr %.2e dr %.2e gap %.2e mu %.2e tau %.2e kappa %.2e obj %.8e\n", iter,
+                   r.primal_residual, r.dual_residual, r.gap, mu, tau, kappa, cx / tau);
+#endif
       if (!std::isfinite(mu) || !std::isfinite(r.primal_residual) || !std::isfinite(r.dual_residual)) {
         r.status = ipm_status::numerical_trouble;
         r.message = "the iterates are no longer finite";

@@ -34,6 +34,8 @@ struct lp_presolve_map {
   std::vector<bool> col_removed;
   // The singleton row whose bound became the column's lower / upper bound.
   std::vector<std::optional<Eigen::Index>> lower_source, upper_source;
+  // Singleton rows in the order presolve removed them: (row, its column).
+  std::vector<std::pair<Eigen::Index, Eigen::Index>> singleton_order;
   Eigen::Index empty_rows = 0, singleton_rows = 0, fixed_cols = 0, empty_cols = 0;
   // Set when presolve alone proves infeasibility: the row whose bounds cannot be met.
   std::optional<Eigen::Index> infeasible_row;
@@ -147,6 +149,7 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
       row_removed[ii] = true;
       --col_count[jj];
       ++map.singleton_rows;
+      map.singleton_order.emplace_back(i, j);
       changed = true;
     }
   }
@@ -193,7 +196,7 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
 /// Row and column scale factors: A_scaled = diag(row) A diag(col).
 struct lp_scaling {
   Eigen::VectorXd row, col;
-  double cost = 1.0;  // c_scaled = diag(col) c / cost
+  double cost = 1.0;   // c_scaled = diag(col) c / cost
 };
 
 /// Ruiz equilibration (D. Ruiz, "A scaling algorithm to equilibrate both rows and columns
