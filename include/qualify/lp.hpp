@@ -359,19 +359,6 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
               (o.linear_solver == lp_linear_solver::automatic && (dense_input || density > 0.3));
   r.linear_solver = set.dense ? "dense_llt" : "sparse_ldlt";
 
-  ipm_result ipm;
-  if (std_form.A.cols() == 0) {  // everything presolved away
-    ipm.status = ipm_status::optimal;
-    ipm.x = VectorXd::Zero(0);
-    ipm.y = VectorXd::Zero(std_form.A.rows());
-  } else {
-    ipm = hsd_solver(std_form, set).solve();
-  }
-  r.iterations = ipm.iterations;
-  r.primal_residual = ipm.primal_residual;
-  r.dual_residual = ipm.dual_residual;
-  r.gap = ipm.gap;
-
   const auto& live_rows = pre.map.live_rows;
   const auto& live_cols = pre.map.live_cols;
   const Index nr = static_cast<Index>(live_cols.size());
@@ -385,32 +372,48 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
     }
     return y;
   };
-
-  if (ipm.status == ipm_status::primal_infeasible) {
+  auto farkas_of = [&](const ipm_result& ipm) {
     VectorXd y = rows_to_original(ipm.y);
     lp_transfer_to_singleton_rows(original, pre.map, -1.0, y);
-    double margin = lp_farkas_margin(original, y, o.certificate_tolerance);
-    if (margin > o.certificate_tolerance) {
-      r.status = lp_status::infeasible;
-      r.message = "infeasible: the Farkas certificate checks on the original data";
-      r.farkas = y / y.lpNorm<Eigen::Infinity>();
-      r.certificate_margin = margin;
-    } else {
-      r.status = lp_status::numerical_trouble;
-      r.message = "the solver found an infeasibility ray that fails its check on the original data";
-    }
-    return r;
-  }
-  if (ipm.status == ipm_status::dual_infeasible) {
+    return y;
+  };
+  auto ray_of = [&](const ipm_result& ipm) {
     VectorXd dr = lp_standard_to_general(std_form, ipm.x, nr, false);
     VectorXd d = VectorXd::Zero(n);
     for (Index k = 0; k < nr; ++k) d[live_cols[static_cast<std::size_t>(k)]] = dr[k] * scale.col[k];
-    double margin = lp_ray_margin(original, d, o.certificate_tolerance);
-    if (!(margin > 0)) {
-      r.status = lp_status::numerical_trouble;
-      r.message = "the solver found an improving ray that fails its check on the original data";
-      return r;
-    }
+    return d;
+  };
+  // The certificate checks on the original data, used to accept a ray and to report it.
+  auto accept_ray = [&](const ipm_result& ipm) {
+    if (ipm.status == ipm_status::primal_infeasible)
+      return lp_farkas_margin(original, farkas_of(ipm), o.certificate_tolerance) > o.certificate_tolerance;
+    return lp_ray_margin(original, ray_of(ipm), o.certificate_tolerance) > 0;
+  };
+
+  ipm_result ipm;
+  if (std_form.A.cols() == 0) {  // everything presolved away
+    ipm.status = ipm_status::optimal;
+    ipm.x = VectorXd::Zero(0);
+    ipm.y = VectorXd::Zero(std_form.A.rows());
+  } else {
+    ipm = hsd_solver(std_form, set).solve(accept_ray);
+  }
+  r.iterations = ipm.iterations;
+  r.primal_residual = ipm.primal_residual;
+  r.dual_residual = ipm.dual_residual;
+  r.gap = ipm.gap;
+
+  if (ipm.status == ipm_status::primal_infeasible) {
+    VectorXd y = farkas_of(ipm);
+    r.status = lp_status::infeasible;
+    r.message = "infeasible: the Farkas certificate checks on the original data";
+    r.certificate_margin = lp_farkas_margin(original, y, o.certificate_tolerance);
+    r.farkas = y / y.lpNorm<Eigen::Infinity>();
+    return r;
+  }
+  if (ipm.status == ipm_status::dual_infeasible) {
+    VectorXd d = ray_of(ipm);
+    const double margin = lp_ray_margin(original, d, o.certificate_tolerance);
     // Unbounded needs a feasible point: solve the feasibility problem (c = 0).
     lp_general feas = original;
     feas.c.setZero();

@@ -9,6 +9,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <functional>
 #include <limits>
 #include <string>
 #include <vector>
@@ -229,7 +230,9 @@ class hsd_solver {
     n_boxed_ = static_cast<Eigen::Index>(boxed_.sum());
   }
 
-  ipm_result solve() {
+  /// `accept_ray` checks a candidate ray on the caller's original problem; a rejected
+  /// ray lets the iterations go on (a later one is more accurate).
+  ipm_result solve(const std::function<bool(const ipm_result&)>& accept_ray) {
     using Eigen::VectorXd;
     const Eigen::Index N = p_.A.cols(), m = p_.A.rows();
     const auto& A = p_.A;
@@ -291,7 +294,7 @@ class hsd_solver {
           r.v = v / by;
           r.s = s / by;
           r.x = x;
-          return r;
+          if (accept_ray(r)) return r;
         }
         const double primal_ray = std::max((A * x).lpNorm<Eigen::Infinity>(),
                                            (x + w).cwiseProduct(boxed_).lpNorm<Eigen::Infinity>());
@@ -299,7 +302,7 @@ class hsd_solver {
           r.status = ipm_status::dual_infeasible;
           r.x = x / -cx;
           r.y = y;
-          return r;
+          if (accept_ray(r)) return r;
         }
       }
       if (iter >= set_.max_iterations) {
