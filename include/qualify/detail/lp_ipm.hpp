@@ -156,13 +156,32 @@ class normal_equations {
         llt_.compute(M);
         if (llt_.info() == Eigen::Success) return true;
       } else {
+        if (!analysed_) {
+          // A normal matrix with more than a quarter of its entries nonzero factors faster
+          // densely (measured on Netlib's seba, 39% dense: see the benchmark).
+          lp_sparse pattern = A_ * A_.transpose();
+          const double m = static_cast<double>(pattern.rows());
+          dense_factor_ = pattern.rows() > 0 && static_cast<double>(pattern.nonZeros()) > 0.25 * m * m;
+          analysed_ = true;
+        }
+        if (dense_factor_) {
+          // Lower triangle of sum_k d_k a_k a_k^T, column by column: sum_k nnz_k^2 / 2 flops.
+          const Eigen::Index m = A_.rows();
+          Eigen::MatrixXd Md = Eigen::MatrixXd::Zero(m, m);
+          for (Eigen::Index k = 0; k < A_.cols(); ++k)
+            for (lp_sparse::InnerIterator i(A_, k); i; ++i) {
+              const double ai = i.value() * d[k];
+              for (lp_sparse::InnerIterator j(A_, k); j && j.row() <= i.row(); ++j)
+                Md(i.row(), j.row()) += ai * j.value();
+            }
+          Md.diagonal().array() += delta;
+          llt_.compute(Md);
+          if (llt_.info() == Eigen::Success) return true;
+          continue;
+        }
         lp_sparse AD = A_ * d.cwiseSqrt().asDiagonal();
         lp_sparse M = AD * AD.transpose();
-        if (!analysed_) {
-          ldlt_.analyzePattern(M);
-          analysed_ = true;
-          pattern_nnz_ = M.nonZeros();
-        } else if (M.nonZeros() != pattern_nnz_) {
+        if (M.nonZeros() != pattern_nnz_) {
           ldlt_.analyzePattern(M);
           pattern_nnz_ = M.nonZeros();
         }
@@ -192,7 +211,7 @@ class normal_equations {
 
  private:
   Eigen::VectorXd raw_solve(const Eigen::VectorXd& r) const {
-    return dense_ ? Eigen::VectorXd(llt_.solve(r)) : Eigen::VectorXd(ldlt_.solve(r));
+    return dense_ || dense_factor_ ? Eigen::VectorXd(llt_.solve(r)) : Eigen::VectorXd(ldlt_.solve(r));
   }
 
   const lp_sparse& A_;
@@ -205,6 +224,7 @@ class normal_equations {
   Eigen::LLT<Eigen::MatrixXd> llt_;
   Eigen::SimplicialLDLT<lp_sparse, Eigen::Lower, Eigen::AMDOrdering<Eigen::Index>> ldlt_;
   bool analysed_ = false;
+  bool dense_factor_ = false;  // sparse A whose normal matrix factors densely
   Eigen::Index pattern_nnz_ = 0;
 };
 
