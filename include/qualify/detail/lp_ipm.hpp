@@ -126,6 +126,56 @@ struct ipm_result {
   std::string message;
 };
 
+/// Blocked left-looking Cholesky of a symmetric positive semidefinite matrix (lower
+/// triangle used) that survives rank deficiency: a pivot that has lost all but
+/// `pivot_tolerance` of its original diagonal to cancellation belongs to a dependent row
+/// and is replaced by 1e64, which drops that direction from the solve (the usual remedy
+/// in interior-point codes, e.g. Wright, "Modified Cholesky factorizations in
+/// interior-point algorithms for linear programming", SIAM J. Optim. 9, 1999).
+class dense_cholesky {
+ public:
+  static constexpr double pivot_tolerance = 1e-14;
+  static constexpr double huge_pivot = 1e64;
+
+  void compute(Eigen::MatrixXd&& M) {
+    L_ = std::move(M);
+    const Eigen::Index m = L_.rows(), nb = 64;
+    Eigen::VectorXd diag = L_.diagonal();
+    dropped_ = 0;
+    for (Eigen::Index k = 0; k < m; k += nb) {
+      const Eigen::Index b = std::min(nb, m - k);
+      if (k > 0)
+        L_.block(k, k, m - k, b).noalias() -= L_.block(k, 0, m - k, k) * L_.block(k, 0, b, k).transpose();
+      for (Eigen::Index j = k; j < k + b; ++j) {
+        if (j > k)
+          L_.col(j).segment(j, m - j).noalias() -=
+              L_.block(j, k, m - j, j - k) * L_.row(j).segment(k, j - k).transpose();
+        double d = L_(j, j);
+        if (!(d > pivot_tolerance * std::max(diag[j], 0.0)) || !(d > 0)) {
+          d = huge_pivot;
+          ++dropped_;
+        }
+        const double root = std::sqrt(d);
+        L_(j, j) = root;
+        L_.col(j).segment(j + 1, m - j - 1) /= root;
+      }
+    }
+    ok_ = L_.allFinite();
+  }
+  bool ok() const { return ok_; }
+  Eigen::Index dropped() const { return dropped_; }
+  Eigen::VectorXd solve(const Eigen::VectorXd& r) const {
+    Eigen::VectorXd x = L_.triangularView<Eigen::Lower>().solve(r);
+    L_.triangularView<Eigen::Lower>().transpose().solveInPlace(x);
+    return x;
+  }
+
+ private:
+  Eigen::MatrixXd L_;
+  Eigen::Index dropped_ = 0;
+  bool ok_ = false;
+};
+
 /// Factors M = A diag(d) A^T + delta I, densely or sparsely, and solves with it.
 class normal_equations {
  public:
@@ -153,8 +203,8 @@ class normal_equations {
           M(row, row) += a * a * d[n_struct_ + static_cast<Eigen::Index>(k)];
         }
         M.diagonal().array() += delta;
-        llt_.compute(M);
-        if (llt_.info() == Eigen::Success) return true;
+        chol_.compute(std::move(M));
+        if (chol_.ok()) return true;
       } else {
         if (!analysed_) {
           // A normal matrix with more than a quarter of its entries nonzero factors faster
@@ -175,8 +225,8 @@ class normal_equations {
                 Md(i.row(), j.row()) += ai * j.value();
             }
           Md.diagonal().array() += delta;
-          llt_.compute(Md);
-          if (llt_.info() == Eigen::Success) return true;
+          chol_.compute(std::move(Md));
+          if (chol_.ok()) return true;
           continue;
         }
         lp_sparse AD = A_ * d.cwiseSqrt().asDiagonal();
@@ -211,7 +261,7 @@ class normal_equations {
 
  private:
   Eigen::VectorXd raw_solve(const Eigen::VectorXd& r) const {
-    return dense_ || dense_factor_ ? Eigen::VectorXd(llt_.solve(r)) : Eigen::VectorXd(ldlt_.solve(r));
+    return dense_ || dense_factor_ ? chol_.solve(r) : Eigen::VectorXd(ldlt_.solve(r));
   }
 
   const lp_sparse& A_;
@@ -221,7 +271,7 @@ class normal_equations {
   std::vector<std::pair<Eigen::Index, double>> slack_rows_;
   Eigen::VectorXd d_;
   double delta_ = 0;
-  Eigen::LLT<Eigen::MatrixXd> llt_;
+  dense_cholesky chol_;
   Eigen::SimplicialLDLT<lp_sparse, Eigen::Lower, Eigen::AMDOrdering<Eigen::Index>> ldlt_;
   bool analysed_ = false;
   bool dense_factor_ = false;  // sparse A whose normal matrix factors densely
