@@ -73,9 +73,9 @@ bool ray_improves(const test_lp& p, const Eigen::VectorXd& d) {
 void check_duals(const test_lp& p, const qualify::lp_result& r) {
   const Eigen::VectorXd z = p.c - p.A.transpose() * r.row_duals;
   CHECK((z - r.reduced_costs).lpNorm<Eigen::Infinity>() <= 1e-8 * (1 + p.c.lpNorm<Eigen::Infinity>()));
-  // An interior point leaves multipliers of about 1e-10 on inactive bounds; those count as
-  // zero (common practice, no source).
-  const double tiny = 1e-9 * (1 + r.row_duals.lpNorm<Eigen::Infinity>() + p.c.lpNorm<Eigen::Infinity>());
+  // An interior point leaves multipliers of the size of its dual tolerance (1e-8 relative)
+  // on inactive and absent bounds; those count as zero (common practice, no source).
+  const double tiny = 1e-7 * (1 + r.row_duals.lpNorm<Eigen::Infinity>() + p.c.lpNorm<Eigen::Infinity>());
   double dual = 0;
   for (Eigen::Index i = 0; i < p.rl.size(); ++i) {
     const double y = r.row_duals[i];
@@ -294,7 +294,8 @@ TEST_CASE("random dense LPs agree with GLPK (simplex)") {
   int counts[3] = {0, 0, 0};
   for (int trial = 0; trial < 60; ++trial) {
     const lp_kind kind = static_cast<lp_kind>(trial % 3);
-    const int m = 5 + trial % 17, n = 4 + (trial * 7) % 23;
+    // Unbounded candidates get fewer rows than columns, so that GLPK reports some.
+    const int m = kind == lp_kind::unbounded ? 2 + trial % 5 : 5 + trial % 17, n = 4 + (trial * 7) % 23;
     test_lp p = random_lp(rng, m, n, kind);
     CAPTURE(trial);
     CAPTURE(m);
@@ -357,6 +358,109 @@ TEST_CASE("an MFCQ-shaped dense LP agrees with GLPK") {
   CHECK(r.linear_solver == "dense_llt");
   CHECK(std::abs(r.objective - ref.objective) <= 1e-7 * (1 + std::abs(ref.objective)));
   check_duals(p, r);
+}
+
+TEST_CASE("degenerate and rank-deficient LPs agree with GLPK") {
+  std::mt19937 rng(11);
+  std::normal_distribution<double> g;
+  SUBCASE("MFCQ LP where every row is active at the optimum (t* = 0)") {
+    // 120 random halfspaces through 0 in 40 dimensions leave only d = 0, t = 0.
+    const int na = 120, n = 40;
+    test_lp p;
+    p.A = Eigen::MatrixXd::Zero(na, n + 1);
+    p.A.leftCols(n) = Eigen::MatrixXd::NullaryExpr(na, n, [&] { return g(rng); });
+    p.A.col(n).setOnes();
+    p.rl = Eigen::VectorXd::Constant(na, -inf);
+    p.ru = Eigen::VectorXd::Zero(na);
+    p.c = Eigen::VectorXd::Zero(n + 1);
+    p.c[n] = -1;
+    p.cl = Eigen::VectorXd::Constant(n + 1, -1);
+    p.cl[n] = -inf;
+    p.cu = Eigen::VectorXd::Constant(n + 1, 1);
+    const glpk_answer ref = glpk_solve(p);
+    REQUIRE(ref.status == GLP_OPT);
+    for (auto solver : {qualify::lp_linear_solver::dense, qualify::lp_linear_solver::sparse}) {
+      qualify::lp_options o;
+      o.linear_solver = solver;
+      auto r = solve(p, o);
+      REQUIRE(r.status == qualify::lp_status::optimal);
+      CHECK(std::abs(r.objective - ref.objective) <= 1e-7);
+      check_duals(p, r);
+    }
+  }
+  SUBCASE("duplicated and dependent equality rows") {
+    test_lp p = random_lp(rng, 12, 20, lp_kind::feasible);
+    p.A.row(3) = p.A.row(0);  // duplicate
+    p.rl[3] = p.rl[0];
+    p.ru[3] = p.ru[0];
+    p.A.row(4) = 2 * p.A.row(1) - p.A.row(2);  // dependent, consistent bounds
+    const Eigen::VectorXd x0 = Eigen::VectorXd::Zero(20);
+    p.rl.segment(0, 3).setZero();
+    p.ru.segment(0, 3).setZero();
+    p.rl[3] = p.ru[3] = 0;
+    p.rl[4] = p.ru[4] = 0;
+    p.cl = p.cl.cwiseMin(0);
+    p.cu = p.cu.cwiseMax(0);  // x = 0 meets every bound of rows 0-4
+    for (int i = 5; i < 12; ++i) {
+      p.rl[i] = std::min(p.rl[i], 0.0);
+      p.ru[i] = std::max(p.ru[i], 0.0);
+    }
+    const glpk_answer ref = glpk_solve(p);
+    REQUIRE(ref.status == GLP_OPT);
+    for (auto solver : {qualify::lp_linear_solver::dense, qualify::lp_linear_solver::sparse}) {
+      qualify::lp_options o;
+      o.linear_solver = solver;
+      auto r = solve(p, o);
+      REQUIRE(r.status == qualify::lp_status::optimal);
+      CHECK(std::abs(r.objective - ref.objective) <= 1e-6 * (1 + std::abs(ref.objective)));
+      CHECK(violation(p, r.x) <= 1e-7);
+      check_duals(p, r);
+    }
+  }
+  SUBCASE("infeasible found by presolve: an empty row that excludes 0") {
+    test_lp p;
+    p.A = Eigen::MatrixXd::Zero(2, 2);
+    p.A(0, 0) = 1;
+    p.c = Eigen::Vector2d(1, 1);
+    p.rl = Eigen::Vector2d(0, 1);
+    p.ru = Eigen::Vector2d(1, 2);
+    p.cl = Eigen::Vector2d::Zero();
+    p.cu = Eigen::Vector2d::Ones();
+    auto r = solve(p);
+    REQUIRE(r.status == qualify::lp_status::infeasible);
+    CHECK(r.message.find("presolve") != std::string::npos);
+    CHECK(farkas_proves_infeasible(p, r.farkas));
+    CHECK(glpk_solve(p).status == GLP_NOFEAS);
+  }
+  SUBCASE("unbounded through an empty column") {
+    test_lp p;
+    p.A = Eigen::MatrixXd::Zero(1, 2);
+    p.A(0, 0) = 1;
+    p.c = Eigen::Vector2d(1, -1);
+    p.rl = Eigen::VectorXd::Constant(1, 1);
+    p.ru = Eigen::VectorXd::Constant(1, 2);
+    p.cl = Eigen::Vector2d::Zero();
+    p.cu = Eigen::Vector2d::Constant(inf);
+    auto r = solve(p);
+    REQUIRE(r.status == qualify::lp_status::unbounded);
+    CHECK(ray_improves(p, r.ray));
+    CHECK(violation(p, r.x) <= 1e-8);
+    CHECK(glpk_solve(p).status == GLP_UNBND);
+  }
+  SUBCASE("infeasible and unbounded at once is reported infeasible") {
+    // x1 <= -1 with x1 >= 0, and x2 free with cost -1: no feasible point, so not unbounded.
+    test_lp p;
+    p.A = Eigen::MatrixXd::Zero(1, 2);
+    p.A(0, 0) = 1;
+    p.c = Eigen::Vector2d(0, -1);
+    p.rl = Eigen::VectorXd::Constant(1, -inf);
+    p.ru = Eigen::VectorXd::Constant(1, -1);
+    p.cl = Eigen::Vector2d(0, -inf);
+    p.cu = Eigen::Vector2d::Constant(inf);
+    auto r = solve(p);
+    REQUIRE(r.status == qualify::lp_status::infeasible);
+    CHECK(farkas_proves_infeasible(p, r.farkas));
+  }
 }
 
 TEST_CASE("bad input is a status with a message, not a crash") {

@@ -4,6 +4,8 @@
 
 #include <qualify/mps.hpp>
 
+#include <fstream>
+#include <iterator>
 #include <sstream>
 
 #include "netlib_index.hpp"
@@ -139,6 +141,34 @@ TEST_CASE("bad files give a message with the line number") {
   auto missing = qualify::read_mps_file("/nonexistent/file.mps");
   CHECK_FALSE(missing.ok());
   CHECK(missing.error.find("cannot open") != std::string::npos);
+}
+
+TEST_CASE("every prefix of a real file is read or rejected with a line number") {
+  const std::string data = QUALIFY_TEST_DATA_DIR;
+  if (data.empty()) {
+    MESSAGE("skipped: QUALIFY_TEST_DATA_DIR is not set");
+    return;
+  }
+  std::ifstream in(data + "/netlib/afiro.mps");
+  const std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  REQUIRE(text.size() > 1000);
+  std::size_t rejected = 0;
+  for (std::size_t cut = 0; cut < text.size(); cut += 7) {
+    auto m = read_text(text.substr(0, cut));
+    if (!m.ok()) {
+      ++rejected;
+      CHECK(m.error_line >= 1);
+      CHECK(m.error.find("line ") == 0);
+    }
+  }
+  CHECK(rejected == (text.size() + 6) / 7);  // no prefix reaches ENDATA
+  // Garbling one character at a time never crashes either (a crash fails the test).
+  for (std::size_t at = 0; at < text.size(); at += 13) {
+    std::string bad = text;
+    bad[at] = static_cast<char>('#' + at % 50);
+    auto m = read_text(bad);
+    if (!m.ok()) CHECK(m.error_line >= 1);
+  }
 }
 
 TEST_CASE("every Netlib file parses with the published counts") {

@@ -83,8 +83,10 @@ class mps_reader {
       if (section_ == section::endata) break;
     }
     if (model_.ok() && in.bad()) fail("the stream failed while reading");
-    if (model_.ok() && section_ != section::endata)
+    if (model_.ok() && section_ != section::endata) {
+      line_number_ = std::max<std::size_t>(line_number_, 1);  // the last line (1 when empty)
       fail("the file ends before ENDATA (truncated?)");
+    }
     if (model_.ok()) finish();
     return std::move(model_);
   }
