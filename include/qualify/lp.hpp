@@ -42,9 +42,10 @@ constexpr std::string_view to_string(lp_status s) noexcept {
 
 /// Which factorisation solves the normal equations A D A^T.
 enum class lp_linear_solver {
-  automatic,  ///< dense Cholesky for a dense A (or a sparse A with more than 30% nonzeros)
-  dense,      ///< Eigen::LLT on the dense normal matrix
-  sparse      ///< Eigen::SimplicialLDLT with AMD ordering
+  automatic,  ///< dense for a dense A or a sparse A with more than 30% nonzeros, else sparse
+  dense,      ///< blocked dense Cholesky that drops dependent pivots (detail::dense_cholesky)
+  sparse      ///< Eigen::SimplicialLDLT with AMD ordering; switches to the dense Cholesky
+              ///< when A A^T is more than 25% nonzero
 };
 
 /// Settings of solve_lp. Residuals are measured on the presolved, scaled problem in the
@@ -101,7 +102,9 @@ struct lp_result {
   /// bounds; unbounded: -c^T d), relative to the size of its terms.
   double certificate_margin = 0;
   Index presolve_removed_rows = 0, presolve_removed_cols = 0;
-  std::string linear_solver;  ///< "dense_llt" or "sparse_ldlt" as used
+  /// The factorisation used: "dense_cholesky" (dense A, or a sparse A whose normal matrix
+  /// is more than 25% full) or "sparse_ldlt"; "" when no iteration ran.
+  std::string linear_solver;
 };
 
 namespace detail {
@@ -357,7 +360,6 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
                          std::max<double>(1.0, static_cast<double>(work.A.rows()) * static_cast<double>(work.A.cols()));
   set.dense = o.linear_solver == lp_linear_solver::dense ||
               (o.linear_solver == lp_linear_solver::automatic && (dense_input || density > 0.3));
-  r.linear_solver = set.dense ? "dense_llt" : "sparse_ldlt";
 
   const auto& live_rows = pre.map.live_rows;
   const auto& live_cols = pre.map.live_cols;
@@ -399,6 +401,7 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
     ipm = hsd_solver(std_form, set).solve(accept_ray);
   }
   r.iterations = ipm.iterations;
+  r.linear_solver = ipm.linear_solver;
   r.primal_residual = ipm.primal_residual;
   r.dual_residual = ipm.dual_residual;
   r.gap = ipm.gap;

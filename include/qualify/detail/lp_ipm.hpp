@@ -124,6 +124,7 @@ struct ipm_result {
   double primal_residual = 0, dual_residual = 0, gap = 0;  // relative, as tested
   double tau = 1, kappa = 1;
   std::string message;
+  std::string linear_solver;  // normal_equations::method()
 };
 
 /// Blocked left-looking Cholesky of a symmetric positive semidefinite matrix (lower
@@ -197,7 +198,7 @@ class normal_equations {
         const Eigen::Index m = Ad_.rows();
         Eigen::MatrixXd M = Eigen::MatrixXd::Zero(m, m);
         Eigen::VectorXd root = d.head(n_struct_).cwiseSqrt();
-        M.selfadjointView<Eigen::Lower>().rankUpdate(Ad_ * root.asDiagonal());
+        if (n_struct_ > 0 && m > 0) M.selfadjointView<Eigen::Lower>().rankUpdate(Ad_ * root.asDiagonal());
         for (std::size_t k = 0; k < slack_rows_.size(); ++k) {
           auto [row, a] = slack_rows_[k];
           M(row, row) += a * a * d[n_struct_ + static_cast<Eigen::Index>(k)];
@@ -252,6 +253,9 @@ class normal_equations {
     }
     return x;
   }
+
+  /// "dense_cholesky" or "sparse_ldlt": the factorisation in use.
+  const char* method() const { return dense_ || dense_factor_ ? "dense_cholesky" : "sparse_ldlt"; }
 
   Eigen::VectorXd apply(const Eigen::VectorXd& y) const {
     Eigen::VectorXd t = A_.transpose() * y;
@@ -316,6 +320,7 @@ class hsd_solver {
     const double nc = 1 + (c.size() ? c.lpNorm<Eigen::Infinity>() : 0.0);
     const double complementarity_count = static_cast<double>(N + n_boxed_ + 1);
     ipm_result r;
+    r.linear_solver = ne_.method();
     int slow_steps = 0;
 
     for (int iter = 0;; ++iter) {
@@ -393,7 +398,9 @@ class hsd_solver {
         g[j] = v[j] * winv[j] * ub_[j];
       }
       VectorXd Dinv = D.cwiseInverse();
-      if (!ne_.factor(Dinv, set_.regularization)) {
+      const bool factored = ne_.factor(Dinv, set_.regularization);
+      r.linear_solver = ne_.method();
+      if (!factored) {
         r.status = ipm_status::numerical_trouble;
         r.message = "the normal equations could not be factored";
         r.x = x / tau;
