@@ -210,10 +210,14 @@ class normal_equations {
         if (!analysed_) {
           // A normal matrix with more than a quarter of its entries nonzero factors faster
           // densely (measured on Netlib's seba, 39% dense: see the benchmark).
-          lp_sparse pattern = A_ * A_.transpose();
+          // Structure only: with every entry set to 1 no product can cancel to zero.
+          lp_sparse ones = A_;
+          std::fill(ones.valuePtr(), ones.valuePtr() + ones.nonZeros(), 1.0);
+          lp_sparse pattern = ones * ones.transpose();
           const double m = static_cast<double>(pattern.rows());
           dense_factor_ = pattern.rows() > 0 && static_cast<double>(pattern.nonZeros()) > 0.25 * m * m;
           analysed_ = true;
+          if (!dense_factor_) prepare_sparse_pattern(pattern);
         }
         if (dense_factor_) {
           // Lower triangle of sum_k d_k a_k a_k^T, column by column: sum_k nnz_k^2 / 2 flops.
@@ -230,14 +234,14 @@ class normal_equations {
           if (chol_.ok()) return true;
           continue;
         }
-        lp_sparse AD = A_ * d.cwiseSqrt().asDiagonal();
-        lp_sparse M = AD * AD.transpose();
-        if (M.nonZeros() != pattern_nnz_) {
-          ldlt_.analyzePattern(M);
-          pattern_nnz_ = M.nonZeros();
-        }
+        // Values of the fixed lower pattern: M_ij = sum_k d_k a_ik a_jk.
+        std::fill(M_.valuePtr(), M_.valuePtr() + M_.nonZeros(), 0.0);
+        double* values = M_.valuePtr();
+        for (Eigen::Index k = 0; k < A_.cols(); ++k)
+          for (std::size_t q = pair_start_[static_cast<std::size_t>(k)]; q < pair_start_[static_cast<std::size_t>(k) + 1]; ++q)
+            values[pair_slot_[q]] += pair_product_[q] * d[k];
         ldlt_.setShift(delta);
-        ldlt_.factorize(M);
+        ldlt_.factorize(M_);
         if (ldlt_.info() == Eigen::Success && (ldlt_.vectorD().array() > 0).all()) return true;
       }
     }
@@ -264,6 +268,27 @@ class normal_equations {
   }
 
  private:
+  // The lower triangle of A A^T as a fixed pattern, and for every column k of A the
+  // slots of M its products a_ik a_jk (i >= j) add to; analysed (AMD) once.
+  void prepare_sparse_pattern(const lp_sparse& full) {
+    M_ = full.triangularView<Eigen::Lower>();
+    M_.makeCompressed();
+    ldlt_.analyzePattern(M_);
+    pair_start_.assign(1, 0);
+    for (Eigen::Index k = 0; k < A_.cols(); ++k) {
+      for (lp_sparse::InnerIterator i(A_, k); i; ++i)
+        for (lp_sparse::InnerIterator j(A_, k); j && j.row() <= i.row(); ++j) {
+          // M_ column j.row() holds rows >= j.row(), sorted: find row i.row().
+          const Eigen::Index* begin = M_.innerIndexPtr() + M_.outerIndexPtr()[j.row()];
+          const Eigen::Index* end = M_.innerIndexPtr() + M_.outerIndexPtr()[j.row() + 1];
+          const Eigen::Index* at = std::lower_bound(begin, end, i.row());
+          pair_slot_.push_back(static_cast<std::size_t>(at - M_.innerIndexPtr()));
+          pair_product_.push_back(i.value() * j.value());
+        }
+      pair_start_.push_back(pair_slot_.size());
+    }
+  }
+
   Eigen::VectorXd raw_solve(const Eigen::VectorXd& r) const {
     return dense_ || dense_factor_ ? chol_.solve(r) : Eigen::VectorXd(ldlt_.solve(r));
   }
@@ -279,7 +304,9 @@ class normal_equations {
   Eigen::SimplicialLDLT<lp_sparse, Eigen::Lower, Eigen::AMDOrdering<Eigen::Index>> ldlt_;
   bool analysed_ = false;
   bool dense_factor_ = false;  // sparse A whose normal matrix factors densely
-  Eigen::Index pattern_nnz_ = 0;
+  lp_sparse M_;                // lower triangle of A diag(d) A^T on a fixed pattern
+  std::vector<std::size_t> pair_start_, pair_slot_;
+  std::vector<double> pair_product_;
 };
 
 /// The homogeneous self-dual model (Xu, Hung and Ye, Annals of OR 62, 1996; with upper
