@@ -355,7 +355,7 @@ TEST_CASE("an MFCQ-shaped dense LP agrees with GLPK") {
   REQUIRE(ref.status == GLP_OPT);
   auto r = solve(p);
   REQUIRE(r.status == qualify::lp_status::optimal);
-  CHECK(r.linear_solver == "dense_cholesky");
+  CHECK(r.linear_solver.rfind("dense_cholesky_columns", 0) == 0);  // more rows than columns
   CHECK(std::abs(r.objective - ref.objective) <= 1e-7 * (1 + std::abs(ref.objective)));
   check_duals(p, r);
 }

@@ -102,8 +102,10 @@ struct lp_result {
   /// bounds; unbounded: -c^T d), relative to the size of its terms.
   double certificate_margin = 0;
   Index presolve_removed_rows = 0, presolve_removed_cols = 0;
-  /// The factorisation used: "dense_cholesky" (dense A, or a sparse A whose normal matrix
-  /// is more than 25% full) or "sparse_ldlt"; "" when no iteration ran.
+  /// The factorisation used: "dense_cholesky_rows" (m x m normal matrix: dense A, or a
+  /// sparse A whose normal matrix is more than 25% full), "dense_cholesky_columns" (dense A
+  /// with more rows than columns: an n x n matrix; "dense_cholesky_columns_then_rows" when it
+  /// lost accuracy near a degenerate optimum), or "sparse_ldlt"; "" when no iteration ran.
   std::string linear_solver;
 };
 

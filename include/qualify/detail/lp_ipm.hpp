@@ -138,7 +138,10 @@ class dense_cholesky {
   static constexpr double pivot_tolerance = 1e-14;
   static constexpr double huge_pivot = 1e64;
 
-  void compute(Eigen::MatrixXd&& M) {
+  /// With `pivot_floor`, pivots are instead raised to at least pivot_floor[j]: for
+  /// G = F + B with F diagonal and B positive semidefinite every exact pivot is >= F_jj,
+  /// so nothing is dropped and rounding cannot make a pivot vanish.
+  void compute(Eigen::MatrixXd&& M, const Eigen::VectorXd* pivot_floor = nullptr) {
     L_ = std::move(M);
     const Eigen::Index m = L_.rows(), nb = 64;
     Eigen::VectorXd diag = L_.diagonal();
@@ -152,7 +155,9 @@ class dense_cholesky {
           L_.col(j).segment(j, m - j).noalias() -=
               L_.block(j, k, m - j, j - k) * L_.row(j).segment(k, j - k).transpose();
         double d = L_(j, j);
-        if (!(d > pivot_tolerance * std::max(diag[j], 0.0)) || !(d > 0)) {
+        if (pivot_floor) {
+          d = std::max(d, (*pivot_floor)[j]);
+        } else if (!(d > pivot_tolerance * std::max(diag[j], 0.0)) || !(d > 0)) {
           d = huge_pivot;
           ++dropped_;
         }
@@ -186,6 +191,20 @@ class normal_equations {
       Ad_ = Eigen::MatrixXd(A.leftCols(n_struct));
       for (Eigen::Index k = n_struct; k < A.cols(); ++k)
         for (lp_sparse::InnerIterator it(A, k); it; ++it) slack_rows_.push_back({it.row(), it.value()});
+      // More rows than columns: factor in the column space instead (see factor_columns).
+      const Eigen::Index m = A.rows();
+      const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
+      columns_ = n_struct > 0 && n_struct + (m - n_slack) < m;
+      if (columns_) {
+        std::vector<bool> has_slack(static_cast<std::size_t>(m), false);
+        for (auto [row, a] : slack_rows_) has_slack[static_cast<std::size_t>(row)] = true;
+        for (Eigen::Index i = 0; i < m; ++i)
+          if (!has_slack[static_cast<std::size_t>(i)]) equality_rows_.push_back(i);
+        AI_.resize(n_struct, n_slack);  // A_I^T, one column per slack's row
+        for (Eigen::Index k = 0; k < n_slack; ++k) AI_.col(k) = Ad_.row(slack_rows_[static_cast<std::size_t>(k)].first).transpose();
+        AE_.resize(static_cast<Eigen::Index>(equality_rows_.size()), n_struct);
+        for (std::size_t e = 0; e < equality_rows_.size(); ++e) AE_.row(static_cast<Eigen::Index>(e)) = Ad_.row(equality_rows_[e]);
+      }
     }
   }
 
@@ -194,7 +213,9 @@ class normal_equations {
     d_ = d;
     for (int attempt = 0; attempt < 6; ++attempt, delta *= 100) {
       delta_ = delta;
-      if (dense_) {
+      if (columns_) {
+        if (factor_columns(d, delta)) return true;
+      } else if (dense_) {
         const Eigen::Index m = Ad_.rows();
         Eigen::MatrixXd M = Eigen::MatrixXd::Zero(m, m);
         Eigen::VectorXd root = d.head(n_struct_).cwiseSqrt();
@@ -249,17 +270,37 @@ class normal_equations {
   }
 
   /// Solves M x = r with two steps of iterative refinement against the unshifted M.
-  Eigen::VectorXd solve(const Eigen::VectorXd& r) const {
+  /// The column-space factorisation loses accuracy once many rows are active (Theta_I^-1
+  /// huge); when its refined residual exceeds 1e-8 relative, the rest of the solve uses
+  /// the m x m factorisation, which drops dependent rows instead.
+  Eigen::VectorXd solve(const Eigen::VectorXd& r) {
     Eigen::VectorXd x = raw_solve(r);
+    Eigen::VectorXd res;
     for (int k = 0; k < 2; ++k) {
-      Eigen::VectorXd res = r - apply(x);
+      res = r - apply(x);
       x += raw_solve(res);
+    }
+    if (columns_) {
+      res = r - apply(x);
+      const double scale = r.lpNorm<Eigen::Infinity>() + (r - res).lpNorm<Eigen::Infinity>();
+      if (res.lpNorm<Eigen::Infinity>() > 1e-8 * scale) {
+        columns_ = false;
+        switched_ = true;
+        if (!factor(d_, delta_)) return Eigen::VectorXd::Constant(r.size(), std::numeric_limits<double>::quiet_NaN());
+        return solve(r);
+      }
     }
     return x;
   }
 
-  /// "dense_cholesky" or "sparse_ldlt": the factorisation in use.
-  const char* method() const { return dense_ || dense_factor_ ? "dense_cholesky" : "sparse_ldlt"; }
+  /// The factorisation in use: "dense_cholesky_columns" (n x n, more rows than columns),
+  /// "dense_cholesky_columns_then_rows" (that, until it lost accuracy), "dense_cholesky_rows"
+  /// (m x m) or "sparse_ldlt".
+  const char* method() const {
+    if (columns_) return "dense_cholesky_columns";
+    if (switched_) return "dense_cholesky_columns_then_rows";
+    return dense_ || dense_factor_ ? "dense_cholesky_rows" : "sparse_ldlt";
+  }
 
   Eigen::VectorXd apply(const Eigen::VectorXd& y) const {
     Eigen::VectorXd t = A_.transpose() * y;
@@ -289,7 +330,61 @@ class normal_equations {
     }
   }
 
+  // With rows I that have a slack (M's diagonal gains theta_i = a^2 d_slack) and rows E
+  // that have none, and K = diag(d_struct):
+  //   M = A K A^T + diag(theta_I, 0) + delta I.
+  // Eliminating u = K A^T y gives G = K^-1 + A_I^T Theta_I^-1 A_I (n x n) and the Schur
+  // complement S = A_E G^-1 A_E^T + delta I on the equality rows; see raw_solve. This
+  // costs n^2 m instead of m^2 n + m^3 / 3 when m > n (MFCQ LPs with many active rows).
+  bool factor_columns(const Eigen::VectorXd& d, double delta) {
+    const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
+    theta_inv_.resize(n_slack);
+    for (Eigen::Index k = 0; k < n_slack; ++k) {
+      const double a = slack_rows_[static_cast<std::size_t>(k)].second;
+      theta_inv_[k] = 1.0 / (a * a * d[n_struct_ + k] + delta);
+    }
+    Eigen::MatrixXd G = Eigen::MatrixXd::Zero(n_struct_, n_struct_);
+    G.selfadjointView<Eigen::Lower>().rankUpdate(AI_ * theta_inv_.cwiseSqrt().asDiagonal());
+    const Eigen::VectorXd kinv = d.head(n_struct_).cwiseInverse();
+    G.diagonal() += kinv;
+    chol_.compute(std::move(G), &kinv);
+    if (!chol_.ok()) return false;
+    if (AE_.rows() == 0) return true;
+    GinvAEt_.resize(n_struct_, AE_.rows());
+    for (Eigen::Index e = 0; e < AE_.rows(); ++e) GinvAEt_.col(e) = chol_.solve(AE_.row(e).transpose());
+    Eigen::MatrixXd S = AE_ * GinvAEt_;
+    S.diagonal().array() += delta;
+    schur_.compute(std::move(S));
+    return schur_.ok();
+  }
+
   Eigen::VectorXd raw_solve(const Eigen::VectorXd& r) const {
+    if (columns_) {
+      // h = A_I^T Theta_I^-1 r_I; y_E = S^-1 (r_E - A_E G^-1 h); u = G^-1 (h + A_E^T y_E);
+      // y_I = Theta_I^-1 (r_I - A_I u).
+      const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
+      Eigen::VectorXd rI(n_slack);
+      for (Eigen::Index k = 0; k < n_slack; ++k) rI[k] = r[slack_rows_[static_cast<std::size_t>(k)].first];
+      Eigen::VectorXd h = AI_ * theta_inv_.cwiseProduct(rI);
+      Eigen::VectorXd y = Eigen::VectorXd::Zero(r.size());
+      Eigen::VectorXd u;
+      if (AE_.rows() > 0) {
+        Eigen::VectorXd rE(AE_.rows());
+        for (std::size_t e = 0; e < equality_rows_.size(); ++e) rE[static_cast<Eigen::Index>(e)] = r[equality_rows_[e]];
+        Eigen::VectorXd yE = schur_.solve(rE - GinvAEt_.transpose() * h);
+        u = chol_.solve(h + AE_.transpose() * yE);
+        for (std::size_t e = 0; e < equality_rows_.size(); ++e) y[equality_rows_[e]] = yE[static_cast<Eigen::Index>(e)];
+      } else {
+        u = chol_.solve(h);
+      }
+      Eigen::VectorXd AIu = AI_.transpose() * u;
+      for (Eigen::Index k = 0; k < n_slack; ++k) {
+        const auto [row, a] = slack_rows_[static_cast<std::size_t>(k)];
+        (void)a;
+        y[row] = theta_inv_[k] * (rI[k] - AIu[k]);
+      }
+      return y;
+    }
     return dense_ || dense_factor_ ? chol_.solve(r) : Eigen::VectorXd(ldlt_.solve(r));
   }
 
@@ -301,6 +396,13 @@ class normal_equations {
   Eigen::VectorXd d_;
   double delta_ = 0;
   dense_cholesky chol_;
+  // Column-space factorisation (columns_): A_I^T, A_E, Theta_I^-1, G^-1 A_E^T, S.
+  bool columns_ = false;
+  bool switched_ = false;  // columns_ was given up for the m x m factorisation
+  std::vector<Eigen::Index> equality_rows_;
+  Eigen::MatrixXd AI_, AE_, GinvAEt_;
+  Eigen::VectorXd theta_inv_;
+  dense_cholesky schur_;
   Eigen::SimplicialLDLT<lp_sparse, Eigen::Lower, Eigen::AMDOrdering<Eigen::Index>> ldlt_;
   bool analysed_ = false;
   bool dense_factor_ = false;  // sparse A whose normal matrix factors densely
