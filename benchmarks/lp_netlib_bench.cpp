@@ -6,9 +6,6 @@
 // process (`glpsol --mps FILE [--interior] -o OUT`), so its time includes process start
 // and writing the solution file. Each row says whether the objective reached the
 // published optimum (INDEX.csv, 1e-6 relative; scrs8 1e-5).
-#include <qualify/lp.hpp>
-#include <qualify/mps.hpp>
-
 #include <fmt/core.h>
 
 #include <algorithm>
@@ -17,6 +14,8 @@
 #include <cstdio>
 #include <cstdlib>
 #include <fstream>
+#include <qualify/lp.hpp>
+#include <qualify/mps.hpp>
 #include <string>
 
 #include "netlib_index.hpp"
@@ -37,8 +36,8 @@ struct glpsol_run {
 glpsol_run run_glpsol(const std::string& file, bool interior) {
   const std::string out = "/tmp/qualify_lp_bench_glpsol.txt";
   std::remove(out.c_str());
-  const std::string cmd = "glpsol --mps '" + file + "'" + (interior ? " --interior" : "") + " -o " + out +
-                          " > /dev/null 2>&1";
+  const std::string cmd = "glpsol --mps '" + file + "'" + (interior ? " --interior" : "") + " -o " +
+                          out + " > /dev/null 2>&1";
   glpsol_run r;
   auto t0 = std::chrono::steady_clock::now();
   int rc = std::system(cmd.c_str());
@@ -75,8 +74,8 @@ int main(int argc, char** argv) {
     fmt::print("glpsol not found (Debian package glpk-utils)\n");
     return 1;
   }
-  fmt::print("{:<14} {:>5} {:>9} {:>9} {:>9} {:>7} {:>7}  {:<4} {:<4} {:<4}\n", "file", "iter", "ours_s",
-             "ipm_s", "splx_s", "o/ipm", "o/splx", "ours", "ipm", "splx");
+  fmt::print("{:<14} {:>5} {:>9} {:>9} {:>9} {:>7} {:>7}  {:<4} {:<4} {:<4}\n", "file", "iter",
+             "ours_s", "ipm_s", "splx_s", "o/ipm", "o/splx", "ours", "ipm", "splx");
   double total_ours = 0, total_ipm = 0, total_simplex = 0;
   int ok_ours = 0, ok_ipm = 0, ok_simplex = 0;
   for (const auto& e : entries) {
@@ -87,8 +86,8 @@ int main(int argc, char** argv) {
     for (int k = 0; k < repeats; ++k) {
       auto t0 = std::chrono::steady_clock::now();
       auto m = qualify::read_mps_file(path);
-      r = qualify::solve_lp(m.matrix, m.objective, m.row_lower, m.row_upper, m.col_lower, m.col_upper, {},
-                            m.objective_constant);
+      r = qualify::solve_lp(m.matrix, m.objective, m.row_lower, m.row_upper, m.col_lower,
+                            m.col_upper, {}, m.objective_constant);
       best = std::min(best, seconds_since(t0));
       constant = m.objective_constant;
     }
@@ -109,14 +108,15 @@ int main(int argc, char** argv) {
     total_ours += best;
     total_ipm += ipm.seconds;
     total_simplex += splx.seconds;
-    fmt::print("{:<14} {:>5} {:>9.4f} {:>9.4f} {:>9.4f} {:>7.2f} {:>7.2f}  {:<4} {:<4} {:<4}\n", e.file,
-               r.iterations, best, ipm.seconds, splx.seconds, best / ipm.seconds, best / splx.seconds,
-               a ? "yes" : "NO", b ? "yes" : "NO", c ? "yes" : "NO");
+    fmt::print("{:<14} {:>5} {:>9.4f} {:>9.4f} {:>9.4f} {:>7.2f} {:>7.2f}  {:<4} {:<4} {:<4}\n",
+               e.file, r.iterations, best, ipm.seconds, splx.seconds, best / ipm.seconds,
+               best / splx.seconds, a ? "yes" : "NO", b ? "yes" : "NO", c ? "yes" : "NO");
   }
-  fmt::print("{:<14} {:>5} {:>9.3f} {:>9.3f} {:>9.3f} {:>7.2f} {:>7.2f}  {:<4} {:<4} {:<4}\n", "total", "",
-             total_ours, total_ipm, total_simplex, total_ours / total_ipm, total_ours / total_simplex,
-             ok_ours, ok_ipm, ok_simplex);
-  fmt::print("published optimum reached: ours {} / glpsol --interior {} / glpsol simplex {} of {}\n", ok_ours,
-             ok_ipm, ok_simplex, entries.size());
+  fmt::print("{:<14} {:>5} {:>9.3f} {:>9.3f} {:>9.3f} {:>7.2f} {:>7.2f}  {:<4} {:<4} {:<4}\n",
+             "total", "", total_ours, total_ipm, total_simplex, total_ours / total_ipm,
+             total_ours / total_simplex, ok_ours, ok_ipm, ok_simplex);
+  fmt::print(
+      "published optimum reached: ours {} / glpsol --interior {} / glpsol simplex {} of {}\n",
+      ok_ours, ok_ipm, ok_simplex, entries.size());
   return 0;
 }

@@ -3,11 +3,10 @@
 #include <doctest/doctest.h>
 #include <glpk.h>
 
-#include <qualify/lp.hpp>
-#include <qualify/mps.hpp>
-
 #include <cmath>
 #include <limits>
+#include <qualify/lp.hpp>
+#include <qualify/mps.hpp>
 #include <random>
 #include <set>
 #include <string>
@@ -53,7 +52,8 @@ bool farkas_proves_infeasible(const test_lp& p, const Eigen::VectorXd& y) {
     if (z[j] > tiny) upper += z[j] * p.cu[j];
     if (z[j] < -tiny) upper += z[j] * p.cl[j];
   }
-  return std::isfinite(lower) && std::isfinite(upper) && lower > upper + 1e-9 * (1 + std::abs(upper));
+  return std::isfinite(lower) && std::isfinite(upper) &&
+         lower > upper + 1e-9 * (1 + std::abs(upper));
 }
 
 // Ray: c^T d < 0 and x + t d stays within every finite bound for t >= 0.
@@ -62,9 +62,11 @@ bool ray_improves(const test_lp& p, const Eigen::VectorXd& d) {
   Eigen::VectorXd Ad = p.A * d;
   const double tol = 1e-8 * (1 + p.A.lpNorm<Eigen::Infinity>());
   for (Eigen::Index i = 0; i < Ad.size(); ++i)
-    if ((std::isfinite(p.rl[i]) && Ad[i] < -tol) || (std::isfinite(p.ru[i]) && Ad[i] > tol)) return false;
+    if ((std::isfinite(p.rl[i]) && Ad[i] < -tol) || (std::isfinite(p.ru[i]) && Ad[i] > tol))
+      return false;
   for (Eigen::Index j = 0; j < d.size(); ++j)
-    if ((std::isfinite(p.cl[j]) && d[j] < -tol) || (std::isfinite(p.cu[j]) && d[j] > tol)) return false;
+    if ((std::isfinite(p.cl[j]) && d[j] < -tol) || (std::isfinite(p.cu[j]) && d[j] > tol))
+      return false;
   return true;
 }
 
@@ -72,10 +74,12 @@ bool ray_improves(const test_lp& p, const Eigen::VectorXd& d) {
 // equals the primal objective at an optimum, and signs match the bounds present.
 void check_duals(const test_lp& p, const qualify::lp_result& r) {
   const Eigen::VectorXd z = p.c - p.A.transpose() * r.row_duals;
-  CHECK((z - r.reduced_costs).lpNorm<Eigen::Infinity>() <= 1e-8 * (1 + p.c.lpNorm<Eigen::Infinity>()));
+  CHECK((z - r.reduced_costs).lpNorm<Eigen::Infinity>() <=
+        1e-8 * (1 + p.c.lpNorm<Eigen::Infinity>()));
   // An interior point leaves multipliers of the size of its dual tolerance (1e-8 relative)
   // on inactive and absent bounds; those count as zero (common practice, no source).
-  const double tiny = 1e-7 * (1 + r.row_duals.lpNorm<Eigen::Infinity>() + p.c.lpNorm<Eigen::Infinity>());
+  const double tiny =
+      1e-7 * (1 + r.row_duals.lpNorm<Eigen::Infinity>() + p.c.lpNorm<Eigen::Infinity>());
   double dual = 0;
   for (Eigen::Index i = 0; i < p.rl.size(); ++i) {
     const double y = r.row_duals[i];
@@ -110,11 +114,11 @@ glpk_answer glpk_solve(const test_lp& p) {
   if (m > 0) glp_add_rows(lp, m);
   if (n > 0) glp_add_cols(lp, n);
   for (int i = 0; i < m; ++i)
-    glp_set_row_bnds(lp, i + 1, glpk_bound_type(p.rl[i], p.ru[i]), std::isfinite(p.rl[i]) ? p.rl[i] : 0,
-                     std::isfinite(p.ru[i]) ? p.ru[i] : 0);
+    glp_set_row_bnds(lp, i + 1, glpk_bound_type(p.rl[i], p.ru[i]),
+                     std::isfinite(p.rl[i]) ? p.rl[i] : 0, std::isfinite(p.ru[i]) ? p.ru[i] : 0);
   for (int j = 0; j < n; ++j) {
-    glp_set_col_bnds(lp, j + 1, glpk_bound_type(p.cl[j], p.cu[j]), std::isfinite(p.cl[j]) ? p.cl[j] : 0,
-                     std::isfinite(p.cu[j]) ? p.cu[j] : 0);
+    glp_set_col_bnds(lp, j + 1, glpk_bound_type(p.cl[j], p.cu[j]),
+                     std::isfinite(p.cl[j]) ? p.cl[j] : 0, std::isfinite(p.cu[j]) ? p.cu[j] : 0);
     glp_set_obj_coef(lp, j + 1, p.c[j]);
   }
   std::vector<int> ia{0}, ja{0};
@@ -157,21 +161,39 @@ test_lp random_lp(std::mt19937& rng, int m, int n, lp_kind kind) {
     x0[j] = 2 * u(rng);
     int t = pick(rng);
     const bool unbounded_ok = kind == lp_kind::unbounded;
-    if (t < 4 || (!unbounded_ok && t < 8)) { p.cl[j] = x0[j] - 1 - u(rng); p.cu[j] = x0[j] + 1 + u(rng); }
-    else if (t == 8) { p.cl[j] = x0[j] - std::abs(u(rng)); p.cu[j] = inf; }
-    else if (t == 9 && unbounded_ok) { p.cl[j] = -inf; p.cu[j] = inf; }
-    else { p.cl[j] = p.cu[j] = x0[j]; }
+    if (t < 4 || (!unbounded_ok && t < 8)) {
+      p.cl[j] = x0[j] - 1 - u(rng);
+      p.cu[j] = x0[j] + 1 + u(rng);
+    } else if (t == 8) {
+      p.cl[j] = x0[j] - std::abs(u(rng));
+      p.cu[j] = inf;
+    } else if (t == 9 && unbounded_ok) {
+      p.cl[j] = -inf;
+      p.cu[j] = inf;
+    } else {
+      p.cl[j] = p.cu[j] = x0[j];
+    }
   }
   Eigen::VectorXd r0 = p.A * x0;
   p.rl.resize(m);
   p.ru.resize(m);
   for (int i = 0; i < m; ++i) {
     int t = pick(rng);
-    if (t < 3) { p.rl[i] = p.ru[i] = r0[i]; }
-    else if (t < 5) { p.rl[i] = -inf; p.ru[i] = r0[i] + std::abs(u(rng)); }
-    else if (t < 7) { p.rl[i] = r0[i] - std::abs(u(rng)); p.ru[i] = inf; }
-    else if (t < 9) { p.rl[i] = r0[i] - std::abs(u(rng)); p.ru[i] = r0[i] + std::abs(u(rng)); }
-    else { p.rl[i] = -inf; p.ru[i] = inf; }
+    if (t < 3) {
+      p.rl[i] = p.ru[i] = r0[i];
+    } else if (t < 5) {
+      p.rl[i] = -inf;
+      p.ru[i] = r0[i] + std::abs(u(rng));
+    } else if (t < 7) {
+      p.rl[i] = r0[i] - std::abs(u(rng));
+      p.ru[i] = inf;
+    } else if (t < 9) {
+      p.rl[i] = r0[i] - std::abs(u(rng));
+      p.ru[i] = r0[i] + std::abs(u(rng));
+    } else {
+      p.rl[i] = -inf;
+      p.ru[i] = inf;
+    }
   }
   if (kind == lp_kind::infeasible && m >= 2) {
     // Row m-1 becomes the sum of rows 0 and 1 with bounds that their bounds exclude.
@@ -204,7 +226,8 @@ TEST_CASE("textbook LPs with their published optima") {
     CHECK((r.x - Eigen::Vector3d(2, 0, 1)).lpNorm<Eigen::Infinity>() < 1e-7);
     check_duals(p, r);
   }
-  SUBCASE("Hillier and Lieberman, Introduction to Operations Research, Wyndor Glass (sec. 3.1): 36") {
+  SUBCASE(
+      "Hillier and Lieberman, Introduction to Operations Research, Wyndor Glass (sec. 3.1): 36") {
     // max 3x1 + 5x2 s.t. x1 <= 4, 2x2 <= 12, 3x1 + 2x2 <= 18, x >= 0; optimum 36 at (2, 6).
     test_lp p;
     p.A.resize(3, 2);
@@ -295,7 +318,8 @@ TEST_CASE("random dense LPs agree with GLPK (simplex)") {
   for (int trial = 0; trial < 60; ++trial) {
     const lp_kind kind = static_cast<lp_kind>(trial % 3);
     // Unbounded candidates get fewer rows than columns, so that GLPK reports some.
-    const int m = kind == lp_kind::unbounded ? 2 + trial % 5 : 5 + trial % 17, n = 4 + (trial * 7) % 23;
+    const int m = kind == lp_kind::unbounded ? 2 + trial % 5 : 5 + trial % 17,
+              n = 4 + (trial * 7) % 23;
     test_lp p = random_lp(rng, m, n, kind);
     CAPTURE(trial);
     CAPTURE(m);
@@ -310,7 +334,8 @@ TEST_CASE("random dense LPs agree with GLPK (simplex)") {
         ++counts[0];
         REQUIRE(r.status == qualify::lp_status::optimal);
         CHECK(std::abs(r.objective - ref.objective) <= 1e-6 * (1 + std::abs(ref.objective)));
-        CHECK(violation(p, r.x) <= 1e-7 * (1 + p.A.lpNorm<Eigen::Infinity>() * r.x.lpNorm<Eigen::Infinity>()));
+        CHECK(violation(p, r.x) <=
+              1e-7 * (1 + p.A.lpNorm<Eigen::Infinity>() * r.x.lpNorm<Eigen::Infinity>()));
         check_duals(p, r);
       } else if (ref.status == GLP_NOFEAS) {
         ++counts[1];
@@ -325,7 +350,8 @@ TEST_CASE("random dense LPs agree with GLPK (simplex)") {
       }
     }
   }
-  MESSAGE("GLPK said optimal/infeasible/unbounded: ", counts[0] / 2, "/", counts[1] / 2, "/", counts[2] / 2);
+  MESSAGE("GLPK said optimal/infeasible/unbounded: ", counts[0] / 2, "/", counts[1] / 2, "/",
+          counts[2] / 2);
   // The generator must exercise every outcome, or the comparison says little.
   CHECK(counts[0] > 0);
   CHECK(counts[1] > 0);
@@ -492,7 +518,8 @@ TEST_CASE("bad input is a status with a message, not a crash") {
   add("+inf lower bound", "col_lower has +inf", [](test_lp& q) { q.cl[1] = inf; });
   add("NaN bound", "row_upper has NaN", [](test_lp& q) { q.ru[0] = std::nan(""); });
   add("short c", "c has 1 entries, expected 2", [](test_lp& q) { q.c = Eigen::VectorXd::Ones(1); });
-  add("short row bounds", "row_lower has 3 entries", [](test_lp& q) { q.rl = Eigen::VectorXd::Zero(3); });
+  add("short row bounds", "row_lower has 3 entries",
+      [](test_lp& q) { q.rl = Eigen::VectorXd::Zero(3); });
   for (const auto& c : cases) {
     CAPTURE(c.what);
     auto r = solve(c.lp);
@@ -534,21 +561,21 @@ TEST_CASE("Netlib: optimal values match the published ones") {
   // The files this engine solves to the published optimum (measured: all 48 with the
   // default options). A file that drops out of this list is a regression.
   const std::set<std::string> solved = {
-      "adlittle.mps", "afiro.mps",    "agg.mps",      "agg2.mps",     "agg3.mps",     "bandm.mps",
-      "beaconfd.mps", "blend.mps",    "boeing1.mps",  "boeing2.mps",  "bore3d.mps",   "brandy.mps",
-      "capri.mps",    "degen2.mps",   "e226.mps",     "etamacro.mps", "finnis.mps",   "forplan.mps",
-      "gfrd-pnc.mps", "grow7.mps",    "israel.mps",   "kb2.mps",      "lotfi.mps",    "pilot4.mps",
-      "recipe.mps",   "sc105.mps",    "sc205.mps",    "sc50a.mps",    "sc50b.mps",    "scagr25.mps",
-      "scagr7.mps",   "scfxm1.mps",   "scorpion.mps", "scrs8.mps",    "scsd1.mps",    "scsd6.mps",
-      "sctap1.mps",   "seba.mps",     "share1b.mps",  "share2b.mps",  "shell.mps",    "ship04s.mps",
-      "stair.mps",    "standata.mps", "standmps.mps", "stocfor1.mps", "tuff.mps",     "vtp.base.mps"};
+      "adlittle.mps", "afiro.mps",    "agg.mps",      "agg2.mps",     "agg3.mps",   "bandm.mps",
+      "beaconfd.mps", "blend.mps",    "boeing1.mps",  "boeing2.mps",  "bore3d.mps", "brandy.mps",
+      "capri.mps",    "degen2.mps",   "e226.mps",     "etamacro.mps", "finnis.mps", "forplan.mps",
+      "gfrd-pnc.mps", "grow7.mps",    "israel.mps",   "kb2.mps",      "lotfi.mps",  "pilot4.mps",
+      "recipe.mps",   "sc105.mps",    "sc205.mps",    "sc50a.mps",    "sc50b.mps",  "scagr25.mps",
+      "scagr7.mps",   "scfxm1.mps",   "scorpion.mps", "scrs8.mps",    "scsd1.mps",  "scsd6.mps",
+      "sctap1.mps",   "seba.mps",     "share1b.mps",  "share2b.mps",  "shell.mps",  "ship04s.mps",
+      "stair.mps",    "standata.mps", "standmps.mps", "stocfor1.mps", "tuff.mps",   "vtp.base.mps"};
   int reached = 0;
   for (const auto& e : entries) {
     CAPTURE(e.file);
     auto m = qualify::read_mps_file(dir + "/" + e.file);
     REQUIRE_MESSAGE(m.ok(), m.error);
-    auto r = qualify::solve_lp(m.matrix, m.objective, m.row_lower, m.row_upper, m.col_lower, m.col_upper, {},
-                               m.objective_constant);
+    auto r = qualify::solve_lp(m.matrix, m.objective, m.row_lower, m.row_upper, m.col_lower,
+                               m.col_upper, {}, m.objective_constant);
     CAPTURE(r.message);
     // e226: the published value is c^T x* alone. Measured: this engine and GLPK (glpsol,
     // which adds the RHS entry -7.113 itself as the constant and prints -25.8649291)
@@ -557,7 +584,8 @@ TEST_CASE("Netlib: optimal values match the published ones") {
     const double value = e.file == "e226.mps" ? r.objective - m.objective_constant : r.objective;
     // Source: Netlib lp/data readme, via INDEX.csv; tolerance 1e-6 relative (scrs8: 1e-5).
     const double rel = std::abs(value - e.optimal_value) / std::max(1.0, std::abs(e.optimal_value));
-    const bool ok = r.status == qualify::lp_status::optimal && rel <= qualify_test::netlib_tolerance(e);
+    const bool ok =
+        r.status == qualify::lp_status::optimal && rel <= qualify_test::netlib_tolerance(e);
     reached += ok;
     if (solved.count(e.file)) {
       CHECK(r.status == qualify::lp_status::optimal);

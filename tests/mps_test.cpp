@@ -2,10 +2,9 @@
 // SPDX-License-Identifier: MIT
 #include <doctest/doctest.h>
 
-#include <qualify/mps.hpp>
-
 #include <fstream>
 #include <iterator>
+#include <qualify/mps.hpp>
 #include <sstream>
 
 #include "netlib_index.hpp"
@@ -22,7 +21,9 @@ qualify::mps_model read_text(const std::string& text,
 std::string fixed(std::string f1, std::string f2, std::string f3 = "", std::string f4 = "",
                   std::string f5 = "", std::string f6 = "") {
   std::string line(61, ' ');
-  auto put = [&](std::size_t col, const std::string& text) { line.replace(col - 1, text.size(), text); };
+  auto put = [&](std::size_t col, const std::string& text) {
+    line.replace(col - 1, text.size(), text);
+  };
   put(2, f1);
   put(5, f2);
   put(15, f3);
@@ -38,14 +39,17 @@ std::string fixed(std::string f1, std::string f2, std::string f3 = "", std::stri
 const std::string small_model =
     "NAME          SMALL\nROWS\n" + fixed("N", "COST") + fixed("L", "LIM 1") + fixed("G", "LIM2") +
     fixed("E", "MYEQN") + fixed("E", "EQR") + fixed("N", "OTHER") + "COLUMNS\n" +
-    fixed("", "X 1", "COST", "1.0", "LIM 1", "1.0") + fixed("", "X 1", "LIM2", "1.0", "OTHER", "5.0") +
-    fixed("", "X2", "COST", "2.0", "LIM 1", "1.0") + fixed("", "X2", "MYEQN", "-1.0", "EQR", "1.0") +
+    fixed("", "X 1", "COST", "1.0", "LIM 1", "1.0") +
+    fixed("", "X 1", "LIM2", "1.0", "OTHER", "5.0") +
+    fixed("", "X2", "COST", "2.0", "LIM 1", "1.0") +
+    fixed("", "X2", "MYEQN", "-1.0", "EQR", "1.0") +
     fixed("", "X3", "COST", "-1.0", "MYEQN", "1.0") + "RHS\n" + fixed("", "RHS", "COST", "-2.5") +
-    fixed("", "RHS", "LIM 1", "4.0", "LIM2", "1.0") + fixed("", "RHS", "MYEQN", "7.0", "EQR", "3.0") +
-    "RANGES\n" + fixed("", "RNG", "LIM 1", "2.5", "LIM2", "3.0") +
-    fixed("", "RNG", "MYEQN", "-4.0", "EQR", "2.0") + "BOUNDS\n" + fixed("UP", "BND", "X 1", "4.0") +
-    fixed("MI", "BND", "X2") + fixed("UP", "BND", "X2", "1.0") + fixed("UP", "BND", "X3", "-2.0") +
-    "ENDATA\n";
+    fixed("", "RHS", "LIM 1", "4.0", "LIM2", "1.0") +
+    fixed("", "RHS", "MYEQN", "7.0", "EQR", "3.0") + "RANGES\n" +
+    fixed("", "RNG", "LIM 1", "2.5", "LIM2", "3.0") +
+    fixed("", "RNG", "MYEQN", "-4.0", "EQR", "2.0") + "BOUNDS\n" +
+    fixed("UP", "BND", "X 1", "4.0") + fixed("MI", "BND", "X2") + fixed("UP", "BND", "X2", "1.0") +
+    fixed("UP", "BND", "X3", "-2.0") + "ENDATA\n";
 
 }  // namespace
 

@@ -13,9 +13,9 @@ namespace qualify_test {
 /// One row of INDEX.csv: the figures of the Netlib lp/data readme.
 struct netlib_entry {
   std::string file;
-  long rows = 0;       ///< objective row included
+  long rows = 0;  ///< objective row included
   long cols = 0;
-  long nonzeros = 0;   ///< objective row included
+  long nonzeros = 0;  ///< objective row included
   std::string bounds_ranges;
   double optimal_value = 0.0;
   std::string note;

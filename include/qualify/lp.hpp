@@ -4,7 +4,6 @@
 
 #include <Eigen/Core>
 #include <Eigen/SparseCore>
-
 #include <cmath>
 #include <limits>
 #include <string>
@@ -29,13 +28,20 @@ enum class lp_status {
 
 constexpr std::string_view to_string(lp_status s) noexcept {
   switch (s) {
-    case lp_status::optimal: return "optimal";
-    case lp_status::infeasible: return "infeasible";
-    case lp_status::unbounded: return "unbounded";
-    case lp_status::iteration_limit: return "iteration_limit";
-    case lp_status::numerical_trouble: return "numerical_trouble";
-    case lp_status::invalid_input: return "invalid_input";
-    case lp_status::not_solved: break;
+    case lp_status::optimal:
+      return "optimal";
+    case lp_status::infeasible:
+      return "infeasible";
+    case lp_status::unbounded:
+      return "unbounded";
+    case lp_status::iteration_limit:
+      return "iteration_limit";
+    case lp_status::numerical_trouble:
+      return "numerical_trouble";
+    case lp_status::invalid_input:
+      return "invalid_input";
+    case lp_status::not_solved:
+      break;
   }
   return "not_solved";
 }
@@ -51,7 +57,8 @@ enum class lp_linear_solver {
 /// Settings of solve_lp. Residuals are measured on the presolved, scaled problem in the
 /// standard form min c^T x, A x = b, 0 <= x <= u, at the iterate (x, y, s, v)/tau.
 struct lp_options {
-  /// ||A x - b||_inf and ||x_U + w - u||_inf  <=  primal_tolerance * (1 + max(||b||_inf, ||u||_inf)).
+  /// ||A x - b||_inf and ||x_U + w - u||_inf  <=  primal_tolerance * (1 + max(||b||_inf,
+  /// ||u||_inf)).
   double primal_tolerance = 1e-8;
   /// ||A^T y - v + s - c||_inf  <=  dual_tolerance * (1 + ||c||_inf).
   double dual_tolerance = 1e-8;
@@ -111,7 +118,8 @@ struct lp_result {
 
 namespace detail {
 
-inline const char* lp_check_vector(const Eigen::VectorXd& v, bool allow_pos_inf, bool allow_neg_inf) {
+inline const char* lp_check_vector(const Eigen::VectorXd& v, bool allow_pos_inf,
+                                   bool allow_neg_inf) {
   for (Index i = 0; i < v.size(); ++i) {
     if (std::isnan(v[i])) return "NaN";
     if (v[i] == std::numeric_limits<double>::infinity() && !allow_pos_inf) return "+inf";
@@ -135,19 +143,25 @@ inline std::string lp_validate(const lp_general& p, const lp_options& o) {
                        : std::string(name) + " has " + std::to_string(got) + " entries, expected " +
                              std::to_string(want);
   };
-  for (auto msg : {sized("c", p.c.size(), n), sized("row_lower", p.row_lower.size(), m),
-                   sized("row_upper", p.row_upper.size(), m), sized("col_lower", p.col_lower.size(), n),
-                   sized("col_upper", p.col_upper.size(), n)})
+  for (auto msg :
+       {sized("c", p.c.size(), n), sized("row_lower", p.row_lower.size(), m),
+        sized("row_upper", p.row_upper.size(), m), sized("col_lower", p.col_lower.size(), n),
+        sized("col_upper", p.col_upper.size(), n)})
     if (!msg.empty()) return msg;
   if (!std::isfinite(p.c0)) return "objective_constant is not finite";
   for (Index j = 0; j < n; ++j)
     for (lp_sparse::InnerIterator it(p.A, j); it; ++it)
       if (!std::isfinite(it.value()))
         return "A(" + std::to_string(it.row()) + ", " + std::to_string(j) + ") is not finite";
-  struct named { const char* name; const Eigen::VectorXd& v; bool pos, neg; };
-  for (const named& e : {named{"c", p.c, false, false}, named{"row_lower", p.row_lower, false, true},
-                         named{"row_upper", p.row_upper, true, false}, named{"col_lower", p.col_lower, false, true},
-                         named{"col_upper", p.col_upper, true, false}}) {
+  struct named {
+    const char* name;
+    const Eigen::VectorXd& v;
+    bool pos, neg;
+  };
+  for (const named& e :
+       {named{"c", p.c, false, false}, named{"row_lower", p.row_lower, false, true},
+        named{"row_upper", p.row_upper, true, false}, named{"col_lower", p.col_lower, false, true},
+        named{"col_upper", p.col_upper, true, false}}) {
     if (const char* what = lp_check_vector(e.v, e.pos, e.neg)) {
       Index i = 0;
       while (i < e.v.size() && !(std::isnan(e.v[i]) || std::isinf(e.v[i]))) ++i;
@@ -164,22 +178,25 @@ inline std::string lp_validate(const lp_general& p, const lp_options& o) {
   if (!positive(o.primal_tolerance)) return "options.primal_tolerance must be finite and > 0";
   if (!positive(o.dual_tolerance)) return "options.dual_tolerance must be finite and > 0";
   if (!positive(o.gap_tolerance)) return "options.gap_tolerance must be finite and > 0";
-  if (!positive(o.infeasibility_tolerance)) return "options.infeasibility_tolerance must be finite and > 0";
-  if (!positive(o.certificate_tolerance)) return "options.certificate_tolerance must be finite and > 0";
+  if (!positive(o.infeasibility_tolerance))
+    return "options.infeasibility_tolerance must be finite and > 0";
+  if (!positive(o.certificate_tolerance))
+    return "options.certificate_tolerance must be finite and > 0";
   if (!positive(o.infinity_threshold)) return "options.infinity_threshold must be finite and > 0";
   if (!(o.presolve_tolerance >= 0) || !std::isfinite(o.presolve_tolerance))
     return "options.presolve_tolerance must be finite and >= 0";
   if (!(o.regularization >= 0) || !std::isfinite(o.regularization))
     return "options.regularization must be finite and >= 0";
-  if (!(o.step_fraction > 0 && o.step_fraction < 1)) return "options.step_fraction must be in (0, 1)";
+  if (!(o.step_fraction > 0 && o.step_fraction < 1))
+    return "options.step_fraction must be in (0, 1)";
   if (o.max_iterations < 0) return "options.max_iterations must be >= 0";
   if (o.scaling_passes < 0) return "options.scaling_passes must be >= 0";
   return {};
 }
 
 /// sup of z^T x over l <= x <= u (+inf when unbounded), ignoring |z_j| <= drop_j.
-inline double lp_support(const Eigen::VectorXd& z, const Eigen::VectorXd& l, const Eigen::VectorXd& u,
-                         const Eigen::VectorXd& drop, double& size) {
+inline double lp_support(const Eigen::VectorXd& z, const Eigen::VectorXd& l,
+                         const Eigen::VectorXd& u, const Eigen::VectorXd& drop, double& size) {
   double sum = 0;
   for (Index j = 0; j < z.size(); ++j) {
     if (std::abs(z[j]) <= drop[j]) continue;
@@ -253,13 +270,10 @@ inline void lp_measure(const lp_general& p, lp_result& r) {
   r.dual_violation = dv;
 }
 
-/// Solves a validated general LP (infinite bounds already normalised).
-inline lp_result lp_solve_general(const lp_general& original, const lp_options& o, bool dense_input);
-
 /// Maps a standard-form vector (values of the standard columns) to general columns;
 /// with `with_shift` false it maps directions (rays).
-inline Eigen::VectorXd lp_standard_to_general(const lp_standard& s, const Eigen::VectorXd& xs, Index n,
-                                              bool with_shift) {
+inline Eigen::VectorXd lp_standard_to_general(const lp_standard& s, const Eigen::VectorXd& xs,
+                                              Index n, bool with_shift) {
   Eigen::VectorXd x = Eigen::VectorXd::Zero(n);
   std::vector<bool> shifted(static_cast<std::size_t>(n), false);
   for (std::size_t k = 0; k < s.from.size(); ++k) {
@@ -298,7 +312,10 @@ inline void lp_transfer_to_singleton_rows(const lp_general& original, const lp_p
   }
 }
 
-inline lp_result lp_solve_general(const lp_general& original, const lp_options& o, bool dense_input) {
+/// Solves a validated general LP (infinite bounds already normalised): presolve, scale,
+/// standard form, interior point, then the way back with checked certificates.
+inline lp_result lp_solve_general(const lp_general& original, const lp_options& o,
+                                  bool dense_input) {
   using Eigen::VectorXd;
   lp_result r;
   const Index m = original.A.rows(), n = original.A.cols();
@@ -359,7 +376,8 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
   set.step_fraction = o.step_fraction;
   set.regularization = o.regularization;
   const double density = static_cast<double>(work.A.nonZeros()) /
-                         std::max<double>(1.0, static_cast<double>(work.A.rows()) * static_cast<double>(work.A.cols()));
+                         std::max<double>(1.0, static_cast<double>(work.A.rows()) *
+                                                   static_cast<double>(work.A.cols()));
   set.dense = o.linear_solver == lp_linear_solver::dense ||
               (o.linear_solver == lp_linear_solver::automatic && (dense_input || density > 0.3));
 
@@ -390,7 +408,8 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
   // The certificate checks on the original data, used to accept a ray and to report it.
   auto accept_ray = [&](const ipm_result& ipm) {
     if (ipm.status == ipm_status::primal_infeasible)
-      return lp_farkas_margin(original, farkas_of(ipm), o.certificate_tolerance) > o.certificate_tolerance;
+      return lp_farkas_margin(original, farkas_of(ipm), o.certificate_tolerance) >
+             o.certificate_tolerance;
     return lp_ray_margin(original, ray_of(ipm), o.certificate_tolerance) > 0;
   };
 
@@ -427,7 +446,8 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
     r.iterations += f.iterations;
     if (f.status == lp_status::optimal) {
       r.status = lp_status::unbounded;
-      r.message = "unbounded: a feasible point and an improving ray that checks on the original data";
+      r.message =
+          "unbounded: a feasible point and an improving ray that checks on the original data";
       r.x = f.x;
       r.ray = d / d.lpNorm<Eigen::Infinity>();
       r.certificate_margin = margin;
@@ -442,7 +462,8 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
   }
 
   // A point: optimal, or the last iterate of a failed solve.
-  VectorXd xs = ipm.x.size() ? lp_standard_to_general(std_form, ipm.x, nr, true) : VectorXd::Zero(nr);
+  VectorXd xs =
+      ipm.x.size() ? lp_standard_to_general(std_form, ipm.x, nr, true) : VectorXd::Zero(nr);
   r.x = pre.map.fixed_value;
   for (Index k = 0; k < nr; ++k) r.x[live_cols[static_cast<std::size_t>(k)]] = xs[k] * scale.col[k];
   r.row_duals = ipm.y.size() ? VectorXd(rows_to_original(ipm.y) * scale.cost) : VectorXd::Zero(m);
@@ -509,12 +530,13 @@ lp_result solve_lp(const Eigen::MatrixBase<Derived>& A, const Eigen::VectorXd& c
   for (Index j = 0; j < A.cols(); ++j)
     for (Index i = 0; i < A.rows(); ++i)
       if (!std::isfinite(static_cast<double>(A(i, j))))
-        return detail::lp_invalid("A(" + std::to_string(i) + ", " + std::to_string(j) + ") is not finite");
+        return detail::lp_invalid("A(" + std::to_string(i) + ", " + std::to_string(j) +
+                                  ") is not finite");
   detail::lp_sparse S = A.template cast<double>().sparseView(0.0, 0.0);
-  return detail::lp_solve_checked(detail::lp_make_general(std::move(S), c, row_lower, row_upper, col_lower,
-                                                          col_upper, objective_constant,
-                                                          options.infinity_threshold),
-                                  options, true);
+  return detail::lp_solve_checked(
+      detail::lp_make_general(std::move(S), c, row_lower, row_upper, col_lower, col_upper,
+                              objective_constant, options.infinity_threshold),
+      options, true);
 }
 
 /// The same with A sparse.
@@ -524,10 +546,10 @@ lp_result solve_lp(const Eigen::SparseMatrixBase<Derived>& A, const Eigen::Vecto
                    const Eigen::VectorXd& col_lower, const Eigen::VectorXd& col_upper,
                    const lp_options& options = {}, double objective_constant = 0.0) {
   detail::lp_sparse S = A.derived().template cast<double>();
-  return detail::lp_solve_checked(detail::lp_make_general(std::move(S), c, row_lower, row_upper, col_lower,
-                                                          col_upper, objective_constant,
-                                                          options.infinity_threshold),
-                                  options, false);
+  return detail::lp_solve_checked(
+      detail::lp_make_general(std::move(S), c, row_lower, row_upper, col_lower, col_upper,
+                              objective_constant, options.infinity_threshold),
+      options, false);
 }
 
 }  // namespace qualify

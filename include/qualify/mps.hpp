@@ -4,9 +4,6 @@
 
 #include <Eigen/Core>
 #include <Eigen/SparseCore>
-
-#include "qualify/report.hpp"
-
 #include <algorithm>
 #include <cerrno>
 #include <cmath>
@@ -18,6 +15,8 @@
 #include <string_view>
 #include <unordered_map>
 #include <vector>
+
+#include "qualify/report.hpp"
 
 namespace qualify {
 
@@ -51,11 +50,11 @@ struct mps_model {
   double objective_constant = 0.0;     ///< minus the RHS entry of the objective row
   Eigen::SparseMatrix<double> matrix;  ///< rows x columns; entries as given, zeros included
   Eigen::VectorXd row_lower, row_upper, col_lower, col_upper;
-  std::vector<bool> col_integer;       ///< marked by BV/LI/UI; the LP relaxation ignores it
-  Index objective_entries = 0;         ///< COLUMNS entries on the objective row
-  std::vector<std::string> notes;      ///< things read but ignored or interpreted, by line
-  std::string error;                   ///< "line N: ..." when the file could not be read
-  std::size_t error_line = 0;          ///< 1-based line of the error; 0 when there is none
+  std::vector<bool> col_integer;   ///< marked by BV/LI/UI; the LP relaxation ignores it
+  Index objective_entries = 0;     ///< COLUMNS entries on the objective row
+  std::vector<std::string> notes;  ///< things read but ignored or interpreted, by line
+  std::string error;               ///< "line N: ..." when the file could not be read
+  std::size_t error_line = 0;      ///< 1-based line of the error; 0 when there is none
 
   bool ok() const noexcept { return error.empty(); }
   /// Nonzeros as the Netlib readme counts them (objective row included).
@@ -163,12 +162,34 @@ class mps_reader {
       if (fields.size() > 1) objsense(fields[1]);
       return;
     }
-    if (key == "ROWS") { section_ = section::rows; return; }
-    if (key == "COLUMNS") { expect_after(section::rows, key); section_ = section::columns; return; }
-    if (key == "RHS") { expect_after(section::columns, key); section_ = section::rhs; return; }
-    if (key == "RANGES") { expect_after(section::columns, key); section_ = section::ranges; return; }
-    if (key == "BOUNDS") { expect_after(section::columns, key); section_ = section::bounds; return; }
-    if (key == "ENDATA") { section_ = section::endata; return; }
+    if (key == "ROWS") {
+      section_ = section::rows;
+      return;
+    }
+    if (key == "COLUMNS") {
+      expect_after(section::rows, key);
+      section_ = section::columns;
+      return;
+    }
+    if (key == "RHS") {
+      expect_after(section::columns, key);
+      section_ = section::rhs;
+      return;
+    }
+    if (key == "RANGES") {
+      expect_after(section::columns, key);
+      section_ = section::ranges;
+      return;
+    }
+    if (key == "BOUNDS") {
+      expect_after(section::columns, key);
+      section_ = section::bounds;
+      return;
+    }
+    if (key == "ENDATA") {
+      section_ = section::endata;
+      return;
+    }
     fail("unknown section '" + key + "'");
   }
 
@@ -177,9 +198,12 @@ class mps_reader {
   }
 
   void objsense(const std::string& word) {
-    if (word == "MAX" || word == "MAXIMIZE") maximise_ = true;
-    else if (word == "MIN" || word == "MINIMIZE") maximise_ = false;
-    else fail("OBJSENSE must be MIN or MAX, not '" + word + "'");
+    if (word == "MAX" || word == "MAXIMIZE")
+      maximise_ = true;
+    else if (word == "MIN" || word == "MINIMIZE")
+      maximise_ = false;
+    else
+      fail("OBJSENSE must be MIN or MAX, not '" + word + "'");
   }
 
   // True when every character outside the fixed fields is blank.
@@ -206,15 +230,17 @@ class mps_reader {
       return has(name) == has(value) && (!has(value) || is_number(f[value]));
     };
     switch (section_) {
-      case section::rows: return has(0) && has(1) && !has(2);
+      case section::rows:
+        return has(0) && has(1) && !has(2);
       case section::columns:
       case section::rhs:
       case section::ranges:
-        return (section_ != section::columns || has(1)) && has(2) && has(3) &&
-               is_number(f[3]) && pair_ok(4, 5);
+        return (section_ != section::columns || has(1)) && has(2) && has(3) && is_number(f[3]) &&
+               pair_ok(4, 5);
       case section::bounds:
         return has(0) && has(2) && (!has(3) || is_number(f[3])) && !has(4);
-      default: return false;
+      default:
+        return false;
     }
   }
 
@@ -236,28 +262,50 @@ class mps_reader {
     }
     auto f = fields_of(line);
     switch (section_) {
-      case section::rows: return rows_line(f);
-      case section::columns: return columns_line(f);
-      case section::rhs: return rhs_ranges_line(f, false);
-      case section::ranges: return rhs_ranges_line(f, true);
-      case section::bounds: return bounds_line(f);
-      case section::objsense: return f.empty() ? void() : objsense(f[0]);
-      default: fail("a data line outside any section"); return;
+      case section::rows:
+        return rows_line(f);
+      case section::columns:
+        return columns_line(f);
+      case section::rhs:
+        return rhs_ranges_line(f, false);
+      case section::ranges:
+        return rhs_ranges_line(f, true);
+      case section::bounds:
+        return bounds_line(f);
+      case section::objsense:
+        return f.empty() ? void() : objsense(f[0]);
+      default:
+        fail("a data line outside any section");
+        return;
     }
   }
 
   void rows_line(const std::vector<std::string>& f) {
     // Fixed format puts the type in field 1 and the name in field 2; free format has 2 tokens.
     std::vector<std::string> g;
-    for (const auto& s : f) if (!s.empty()) g.push_back(s);
-    if (g.size() != 2) { fail("a ROWS line needs a type and a name"); return; }
+    for (const auto& s : f)
+      if (!s.empty()) g.push_back(s);
+    if (g.size() != 2) {
+      fail("a ROWS line needs a type and a name");
+      return;
+    }
     row_kind kind;
-    if (g[0] == "N") kind = objective_seen_ ? row_kind::ignored_n : row_kind::objective;
-    else if (g[0] == "E") kind = row_kind::equal;
-    else if (g[0] == "L") kind = row_kind::less;
-    else if (g[0] == "G") kind = row_kind::greater;
-    else { fail("row type '" + g[0] + "' is not N, E, L or G"); return; }
-    if (row_index_.count(g[1])) { fail("row '" + g[1] + "' is declared twice"); return; }
+    if (g[0] == "N")
+      kind = objective_seen_ ? row_kind::ignored_n : row_kind::objective;
+    else if (g[0] == "E")
+      kind = row_kind::equal;
+    else if (g[0] == "L")
+      kind = row_kind::less;
+    else if (g[0] == "G")
+      kind = row_kind::greater;
+    else {
+      fail("row type '" + g[0] + "' is not N, E, L or G");
+      return;
+    }
+    if (row_index_.count(g[1])) {
+      fail("row '" + g[1] + "' is declared twice");
+      return;
+    }
     if (kind == row_kind::objective) {
       objective_seen_ = true;
       model_.objective_name = g[1];
@@ -291,7 +339,10 @@ class mps_reader {
     }
     const std::string& col = f[k];
     if (col != current_col_name_) {
-      if (col_index_.count(col)) { fail("the entries of column '" + col + "' are not contiguous"); return; }
+      if (col_index_.count(col)) {
+        fail("the entries of column '" + col + "' are not contiguous");
+        return;
+      }
       col_index_[col] = static_cast<Index>(model_.col_names.size());
       model_.col_names.push_back(col);
       objective_.push_back(0.0);
@@ -304,7 +355,10 @@ class mps_reader {
       if (i == unknown_row || !parse_number(f[p + 1], value)) return;
       if (i == ignored_row) continue;
       if (i == objective_row) {
-        if (objective_set_col_ == j) { fail("column '" + col + "' has two objective entries"); return; }
+        if (objective_set_col_ == j) {
+          fail("column '" + col + "' has two objective entries");
+          return;
+        }
         objective_set_col_ = j;
         objective_[static_cast<std::size_t>(j)] = value;
         ++model_.objective_entries;
@@ -326,11 +380,19 @@ class mps_reader {
     std::size_t k;
     if (fixed_line_) {
       k = 2;
-      if (f.size() != 4 && f.size() != 6) { fail(std::string("a ") + what + " line needs one or two (row, value) pairs"); return; }
+      if (f.size() != 4 && f.size() != 6) {
+        fail(std::string("a ") + what + " line needs one or two (row, value) pairs");
+        return;
+      }
     } else {
-      if (f.size() == 2 || f.size() == 4) k = 0;
-      else if (f.size() == 3 || f.size() == 5) k = 1;
-      else { fail(std::string("a ") + what + " line needs one or two (row, value) pairs"); return; }
+      if (f.size() == 2 || f.size() == 4)
+        k = 0;
+      else if (f.size() == 3 || f.size() == 5)
+        k = 1;
+      else {
+        fail(std::string("a ") + what + " line needs one or two (row, value) pairs");
+        return;
+      }
     }
     if (rhs_.size() < kinds_.size()) {
       rhs_.resize(kinds_.size(), 0.0);
@@ -342,22 +404,30 @@ class mps_reader {
       if (i == unknown_row || !parse_number(f[p + 1], value)) return;
       if (i == ignored_row) continue;
       if (i == objective_row) {
-        if (ranges) { fail("a range on the objective row"); return; }
+        if (ranges) {
+          fail("a range on the objective row");
+          return;
+        }
         // The RHS of the objective row is minus the objective's constant term (the usual
         // reading; Netlib's e226 relies on it).
         model_.objective_constant = -value;
         continue;
       }
       auto r = static_cast<std::size_t>(i);
-      if (ranges) range_[r] = value;
-      else rhs_[r] = value;
+      if (ranges)
+        range_[r] = value;
+      else
+        rhs_[r] = value;
     }
   }
 
   void bounds_line(const std::vector<std::string>& f) {
     // Fields: type, [set,] column [, value].
     std::vector<std::string> g = f;
-    if (g.empty()) { fail("an empty BOUNDS line"); return; }
+    if (g.empty()) {
+      fail("an empty BOUNDS line");
+      return;
+    }
     const std::string type = g[0];
     const bool needs_value = !(type == "FR" || type == "MI" || type == "PL" || type == "BV");
     std::string col;
@@ -370,19 +440,28 @@ class mps_reader {
       // Without a value: type [set] column; with one: type [set] column value.
       std::size_t n = g.size();
       if (needs_value) {
-        if (n != 3 && n != 4) { fail("a " + type + " bound needs a column and a value"); return; }
+        if (n != 3 && n != 4) {
+          fail("a " + type + " bound needs a column and a value");
+          return;
+        }
         col = g[n - 2];
         value_text = g[n - 1];
       } else {
         // BV may carry a value (ignored); FR/MI/PL may too in some writers.
-        if (n < 2 || n > 4) { fail("a " + type + " bound needs a column"); return; }
+        if (n < 2 || n > 4) {
+          fail("a " + type + " bound needs a column");
+          return;
+        }
         col = n == 2 ? g[1] : g[2];
         if (n == 4) value_text = g[3];
         if (n == 3 && col_index_.count(g[1]) && !col_index_.count(g[2])) col = g[1];
       }
     }
     auto it = col_index_.find(col);
-    if (it == col_index_.end()) { fail("bound on unknown column '" + col + "'"); return; }
+    if (it == col_index_.end()) {
+      fail("bound on unknown column '" + col + "'");
+      return;
+    }
     auto j = static_cast<std::size_t>(it->second);
     if (lower_.size() < model_.col_names.size()) {
       lower_.resize(model_.col_names.size(), 0.0);
@@ -456,23 +535,37 @@ class mps_reader {
       double b = rhs_[r];
       double lo = -inf, up = inf;
       switch (kinds_[r]) {
-        case row_kind::equal: lo = up = b; break;
-        case row_kind::less: up = b; break;
-        case row_kind::greater: lo = b; break;
-        default: break;
+        case row_kind::equal:
+          lo = up = b;
+          break;
+        case row_kind::less:
+          up = b;
+          break;
+        case row_kind::greater:
+          lo = b;
+          break;
+        default:
+          break;
       }
       double range = range_[r];
       if (!std::isnan(range)) {
         // Standard MPS range rules: L -> [b-|R|, b], G -> [b, b+|R|],
         // E -> [b, b+|R|] when R > 0 and [b-|R|, b] when R < 0.
         switch (kinds_[r]) {
-          case row_kind::less: lo = b - std::abs(range); break;
-          case row_kind::greater: up = b + std::abs(range); break;
-          case row_kind::equal:
-            if (range > 0) up = b + range;
-            else lo = b + range;
+          case row_kind::less:
+            lo = b - std::abs(range);
             break;
-          default: break;
+          case row_kind::greater:
+            up = b + std::abs(range);
+            break;
+          case row_kind::equal:
+            if (range > 0)
+              up = b + range;
+            else
+              lo = b + range;
+            break;
+          default:
+            break;
         }
       }
       model_.row_lower[i] = lo;
@@ -490,7 +583,8 @@ class mps_reader {
       }
     }
     if (std::find(integer_.begin(), integer_.end(), true) != integer_.end())
-      model_.notes.push_back("integer bound types (BV/LI/UI) read; the LP relaxation ignores integrality");
+      model_.notes.push_back(
+          "integer bound types (BV/LI/UI) read; the LP relaxation ignores integrality");
   }
 
   static constexpr Index objective_row = -1;

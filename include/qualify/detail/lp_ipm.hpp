@@ -6,7 +6,6 @@
 #include <Eigen/Core>
 #include <Eigen/SparseCholesky>
 #include <Eigen/SparseCore>
-
 #include <algorithm>
 #include <cmath>
 #include <functional>
@@ -28,9 +27,9 @@ struct lp_standard {
   double c0 = 0.0;
   Eigen::Index n_struct = 0;
   struct origin {
-    bool slack = false;       // slack of a row, else a general column
-    Eigen::Index index = 0;   // that row or column
-    double sign = 1.0;        // general value = shift + sign * x_k
+    bool slack = false;      // slack of a row, else a general column
+    Eigen::Index index = 0;  // that row or column
+    double sign = 1.0;       // general value = shift + sign * x_k
     double shift = 0.0;
   };
   std::vector<origin> from;
@@ -55,7 +54,8 @@ inline lp_standard to_standard(const lp_general& p) {
   for (Index j = 0; j < n; ++j) {
     const double lo = p.col_lower[j], up = p.col_upper[j];
     auto entries = [&](Index k, double sign) {
-      for (lp_sparse::InnerIterator it(p.A, j); it; ++it) t.emplace_back(it.row(), k, sign * it.value());
+      for (lp_sparse::InnerIterator it(p.A, j); it; ++it)
+        t.emplace_back(it.row(), k, sign * it.value());
     };
     auto shift_rows = [&](double shift) {
       for (lp_sparse::InnerIterator it(p.A, j); it; ++it) s.b[it.row()] -= it.value() * shift;
@@ -115,7 +115,13 @@ struct ipm_settings {
   bool dense = false;
 };
 
-enum class ipm_status { optimal, primal_infeasible, dual_infeasible, iteration_limit, numerical_trouble };
+enum class ipm_status {
+  optimal,
+  primal_infeasible,
+  dual_infeasible,
+  iteration_limit,
+  numerical_trouble
+};
 
 struct ipm_result {
   ipm_status status = ipm_status::numerical_trouble;
@@ -149,7 +155,8 @@ class dense_cholesky {
     for (Eigen::Index k = 0; k < m; k += nb) {
       const Eigen::Index b = std::min(nb, m - k);
       if (k > 0)
-        L_.block(k, k, m - k, b).noalias() -= L_.block(k, 0, m - k, k) * L_.block(k, 0, b, k).transpose();
+        L_.block(k, k, m - k, b).noalias() -=
+            L_.block(k, 0, m - k, k) * L_.block(k, 0, b, k).transpose();
       for (Eigen::Index j = k; j < k + b; ++j) {
         if (j > k)
           L_.col(j).segment(j, m - j).noalias() -=
@@ -190,7 +197,8 @@ class normal_equations {
     if (dense_) {
       Ad_ = Eigen::MatrixXd(A.leftCols(n_struct));
       for (Eigen::Index k = n_struct; k < A.cols(); ++k)
-        for (lp_sparse::InnerIterator it(A, k); it; ++it) slack_rows_.push_back({it.row(), it.value()});
+        for (lp_sparse::InnerIterator it(A, k); it; ++it)
+          slack_rows_.push_back({it.row(), it.value()});
       // More rows than columns: factor in the column space instead (see factor_columns).
       const Eigen::Index m = A.rows();
       const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
@@ -201,9 +209,11 @@ class normal_equations {
         for (Eigen::Index i = 0; i < m; ++i)
           if (!has_slack[static_cast<std::size_t>(i)]) equality_rows_.push_back(i);
         AI_.resize(n_struct, n_slack);  // A_I^T, one column per slack's row
-        for (Eigen::Index k = 0; k < n_slack; ++k) AI_.col(k) = Ad_.row(slack_rows_[static_cast<std::size_t>(k)].first).transpose();
+        for (Eigen::Index k = 0; k < n_slack; ++k)
+          AI_.col(k) = Ad_.row(slack_rows_[static_cast<std::size_t>(k)].first).transpose();
         AE_.resize(static_cast<Eigen::Index>(equality_rows_.size()), n_struct);
-        for (std::size_t e = 0; e < equality_rows_.size(); ++e) AE_.row(static_cast<Eigen::Index>(e)) = Ad_.row(equality_rows_[e]);
+        for (std::size_t e = 0; e < equality_rows_.size(); ++e)
+          AE_.row(static_cast<Eigen::Index>(e)) = Ad_.row(equality_rows_[e]);
       }
     }
   }
@@ -219,7 +229,8 @@ class normal_equations {
         const Eigen::Index m = Ad_.rows();
         Eigen::MatrixXd M = Eigen::MatrixXd::Zero(m, m);
         Eigen::VectorXd root = d.head(n_struct_).cwiseSqrt();
-        if (n_struct_ > 0 && m > 0) M.selfadjointView<Eigen::Lower>().rankUpdate(Ad_ * root.asDiagonal());
+        if (n_struct_ > 0 && m > 0)
+          M.selfadjointView<Eigen::Lower>().rankUpdate(Ad_ * root.asDiagonal());
         for (std::size_t k = 0; k < slack_rows_.size(); ++k) {
           auto [row, a] = slack_rows_[k];
           M(row, row) += a * a * d[n_struct_ + static_cast<Eigen::Index>(k)];
@@ -236,7 +247,8 @@ class normal_equations {
           std::fill(ones.valuePtr(), ones.valuePtr() + ones.nonZeros(), 1.0);
           lp_sparse pattern = ones * ones.transpose();
           const double m = static_cast<double>(pattern.rows());
-          dense_factor_ = pattern.rows() > 0 && static_cast<double>(pattern.nonZeros()) > 0.25 * m * m;
+          dense_factor_ =
+              pattern.rows() > 0 && static_cast<double>(pattern.nonZeros()) > 0.25 * m * m;
           analysed_ = true;
           if (!dense_factor_) prepare_sparse_pattern(pattern);
         }
@@ -259,7 +271,8 @@ class normal_equations {
         std::fill(M_.valuePtr(), M_.valuePtr() + M_.nonZeros(), 0.0);
         double* values = M_.valuePtr();
         for (Eigen::Index k = 0; k < A_.cols(); ++k)
-          for (std::size_t q = pair_start_[static_cast<std::size_t>(k)]; q < pair_start_[static_cast<std::size_t>(k) + 1]; ++q)
+          for (std::size_t q = pair_start_[static_cast<std::size_t>(k)];
+               q < pair_start_[static_cast<std::size_t>(k) + 1]; ++q)
             values[pair_slot_[q]] += pair_product_[q] * d[k];
         ldlt_.setShift(delta);
         ldlt_.factorize(M_);
@@ -286,7 +299,8 @@ class normal_equations {
       if (res.lpNorm<Eigen::Infinity>() > 1e-8 * scale) {
         columns_ = false;
         switched_ = true;
-        if (!factor(d_, delta_)) return Eigen::VectorXd::Constant(r.size(), std::numeric_limits<double>::quiet_NaN());
+        if (!factor(d_, delta_))
+          return Eigen::VectorXd::Constant(r.size(), std::numeric_limits<double>::quiet_NaN());
         return solve(r);
       }
     }
@@ -351,7 +365,8 @@ class normal_equations {
     if (!chol_.ok()) return false;
     if (AE_.rows() == 0) return true;
     GinvAEt_.resize(n_struct_, AE_.rows());
-    for (Eigen::Index e = 0; e < AE_.rows(); ++e) GinvAEt_.col(e) = chol_.solve(AE_.row(e).transpose());
+    for (Eigen::Index e = 0; e < AE_.rows(); ++e)
+      GinvAEt_.col(e) = chol_.solve(AE_.row(e).transpose());
     Eigen::MatrixXd S = AE_ * GinvAEt_;
     S.diagonal().array() += delta;
     schur_.compute(std::move(S));
@@ -364,16 +379,19 @@ class normal_equations {
       // y_I = Theta_I^-1 (r_I - A_I u).
       const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
       Eigen::VectorXd rI(n_slack);
-      for (Eigen::Index k = 0; k < n_slack; ++k) rI[k] = r[slack_rows_[static_cast<std::size_t>(k)].first];
+      for (Eigen::Index k = 0; k < n_slack; ++k)
+        rI[k] = r[slack_rows_[static_cast<std::size_t>(k)].first];
       Eigen::VectorXd h = AI_ * theta_inv_.cwiseProduct(rI);
       Eigen::VectorXd y = Eigen::VectorXd::Zero(r.size());
       Eigen::VectorXd u;
       if (AE_.rows() > 0) {
         Eigen::VectorXd rE(AE_.rows());
-        for (std::size_t e = 0; e < equality_rows_.size(); ++e) rE[static_cast<Eigen::Index>(e)] = r[equality_rows_[e]];
+        for (std::size_t e = 0; e < equality_rows_.size(); ++e)
+          rE[static_cast<Eigen::Index>(e)] = r[equality_rows_[e]];
         Eigen::VectorXd yE = schur_.solve(rE - GinvAEt_.transpose() * h);
         u = chol_.solve(h + AE_.transpose() * yE);
-        for (std::size_t e = 0; e < equality_rows_.size(); ++e) y[equality_rows_[e]] = yE[static_cast<Eigen::Index>(e)];
+        for (std::size_t e = 0; e < equality_rows_.size(); ++e)
+          y[equality_rows_[e]] = yE[static_cast<Eigen::Index>(e)];
       } else {
         u = chol_.solve(h);
       }
@@ -463,16 +481,18 @@ class hsd_solver {
       const double F4 = -cx + by - kappa;
       const double mu = (x.dot(s) + w.dot(v) + tau * kappa) / complementarity_count;
 
-      r.primal_residual = std::max(F1.lpNorm<Eigen::Infinity>(), F2.lpNorm<Eigen::Infinity>()) / tau / nb;
+      r.primal_residual =
+          std::max(F1.lpNorm<Eigen::Infinity>(), F2.lpNorm<Eigen::Infinity>()) / tau / nb;
       r.dual_residual = F3.lpNorm<Eigen::Infinity>() / tau / nc;
       r.gap = std::abs(cx - by) / tau / (1 + std::abs(cx / tau));
       r.tau = tau;
       r.kappa = kappa;
 #ifdef QUALIFY_LP_TRACE
-      std::fprintf(stderr, "%3d pr %.2e dr %.2e gap %.2e mu %.2e tau %.2e kappa %.2e obj %.8e\n", iter,
-                   r.primal_residual, r.dual_residual, r.gap, mu, tau, kappa, cx / tau);
+      std::fprintf(stderr, "%3d pr %.2e dr %.2e gap %.2e mu %.2e tau %.2e kappa %.2e obj %.8e\n",
+                   iter, r.primal_residual, r.dual_residual, r.gap, mu, tau, kappa, cx / tau);
 #endif
-      if (!std::isfinite(mu) || !std::isfinite(r.primal_residual) || !std::isfinite(r.dual_residual)) {
+      if (!std::isfinite(mu) || !std::isfinite(r.primal_residual) ||
+          !std::isfinite(r.dual_residual)) {
         r.status = ipm_status::numerical_trouble;
         r.message = "the iterates are no longer finite";
         return r;
@@ -538,8 +558,8 @@ class hsd_solver {
       }
       VectorXd q = ne_.solve(b + A * Dinv.cwiseProduct(c - g));
       VectorXd xq = Dinv.cwiseProduct(A.transpose() * q + g - c);
-      const double den = -(c + g).dot(xq) + b.dot(q) + ub_.cwiseProduct(ub_).dot(v.cwiseProduct(winv)) +
-                         kappa / tau;
+      const double den = -(c + g).dot(xq) + b.dot(q) +
+                         ub_.cwiseProduct(ub_).dot(v.cwiseProduct(winv)) + kappa / tau;
 
       struct direction {
         VectorXd dx, dw, ds, dv, dy;
@@ -552,8 +572,8 @@ class hsd_solver {
         VectorXd h = R3 - R5.cwiseQuotient(x) + (R6 - v.cwiseProduct(R2)).cwiseProduct(winv);
         VectorXd p = ne_.solve(-eta * F1 + A * Dinv.cwiseProduct(h));
         VectorXd xp = Dinv.cwiseProduct(A.transpose() * p - h);
-        const double num = -eta * F4 + ub_.dot((R6 - v.cwiseProduct(R2)).cwiseProduct(winv)) + R7 / tau +
-                           (c + g).dot(xp) - b.dot(p);
+        const double num = -eta * F4 + ub_.dot((R6 - v.cwiseProduct(R2)).cwiseProduct(winv)) +
+                           R7 / tau + (c + g).dot(xp) - b.dot(p);
         d.dtau = num / den;
         d.dy = p + q * d.dtau;
         d.dx = xp + xq * d.dtau;
@@ -590,7 +610,8 @@ class hsd_solver {
       const double sigma = std::clamp(std::pow(mu_aff / mu, 3), 0.0, 1.0);
       VectorXd R5 = -xs - aff.dx.cwiseProduct(aff.ds);
       R5.array() += sigma * mu;
-      VectorXd R6 = (-wv - aff.dw.cwiseProduct(aff.dv) + VectorXd::Constant(N, sigma * mu)).cwiseProduct(boxed_);
+      VectorXd R6 = (-wv - aff.dw.cwiseProduct(aff.dv) + VectorXd::Constant(N, sigma * mu))
+                        .cwiseProduct(boxed_);
       const double R7 = -tau * kappa - aff.dtau * aff.dkappa + sigma * mu;
       direction d = newton(1.0 - sigma, R5, R6, R7);
       const double a = std::min(1.0, set_.step_fraction * max_step(d));

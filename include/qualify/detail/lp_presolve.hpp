@@ -4,7 +4,6 @@
 
 #include <Eigen/Core>
 #include <Eigen/SparseCore>
-
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -27,7 +26,7 @@ struct lp_general {
 
 /// What presolve removed and how to put it back.
 struct lp_presolve_map {
-  Eigen::Index rows = 0, cols = 0;     // of the original problem
+  Eigen::Index rows = 0, cols = 0;      // of the original problem
   std::vector<Eigen::Index> live_rows;  // reduced row -> original row
   std::vector<Eigen::Index> live_cols;  // reduced column -> original column
   Eigen::VectorXd fixed_value;          // value of each original column removed as fixed
@@ -53,7 +52,6 @@ struct lp_presolved {
 inline lp_presolved presolve(const lp_general& p, double tolerance) {
   using Eigen::Index;
   const Index m = p.A.rows(), n = p.A.cols();
-  const double inf = std::numeric_limits<double>::infinity();
   lp_presolved out;
   auto& map = out.map;
   map.rows = m;
@@ -66,7 +64,8 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
   Eigen::VectorXd rl = p.row_lower, ru = p.row_upper, cl = p.col_lower, cu = p.col_upper;
   std::vector<bool> row_removed(static_cast<std::size_t>(m), false);
   const lp_sparse At = p.A.transpose();  // row access
-  std::vector<Index> row_count(static_cast<std::size_t>(m), 0), col_count(static_cast<std::size_t>(n), 0);
+  std::vector<Index> row_count(static_cast<std::size_t>(m), 0),
+      col_count(static_cast<std::size_t>(n), 0);
   for (Index j = 0; j < n; ++j)
     for (lp_sparse::InnerIterator it(p.A, j); it; ++it)
       if (it.value() != 0.0) {
@@ -102,9 +101,12 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
         // The best bound for c_j x_j; an unbounded direction is left to the solver,
         // which can prove it.
         double value;
-        if (p.c[j] > 0) value = cl[j];
-        else if (p.c[j] < 0) value = cu[j];
-        else value = std::clamp(0.0, cl[j], cu[j]);
+        if (p.c[j] > 0)
+          value = cl[j];
+        else if (p.c[j] < 0)
+          value = cu[j];
+        else
+          value = std::clamp(0.0, cl[j], cu[j]);
         if (!std::isfinite(value)) continue;
         remove_col(j, value);
         ++map.empty_cols;
@@ -117,8 +119,9 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
       if (row_count[ii] == 0) {
         if (rl[i] > slack(rl[i]) || ru[i] < -slack(ru[i])) {
           map.infeasible_row = i;
-          map.infeasible_reason = "row " + std::to_string(i) +
-                                  " has no free entries and its bounds exclude the value of the fixed ones";
+          map.infeasible_reason =
+              "row " + std::to_string(i) +
+              " has no free entries and its bounds exclude the value of the fixed ones";
           break;
         }
         row_removed[ii] = true;
@@ -129,7 +132,8 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
       // Singleton row: a x_j in [rl, ru] is a bound on x_j.
       Index j = -1;
       double a = 0.0;
-      for (lp_sparse::InnerIterator it(At, i); it; ++it)  // column i of A^T: it.row() is a column of A
+      for (lp_sparse::InnerIterator it(At, i); it;
+           ++it)  // column i of A^T: it.row() is a column of A
         if (it.value() != 0.0 && !map.col_removed[static_cast<std::size_t>(it.row())]) {
           j = it.row();
           a = it.value();
@@ -161,7 +165,8 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
   const auto mr = static_cast<Index>(map.live_rows.size());
   const auto nr = static_cast<Index>(map.live_cols.size());
   std::vector<Index> new_row(static_cast<std::size_t>(m), -1);
-  for (Index k = 0; k < mr; ++k) new_row[static_cast<std::size_t>(map.live_rows[static_cast<std::size_t>(k)])] = k;
+  for (Index k = 0; k < mr; ++k)
+    new_row[static_cast<std::size_t>(map.live_rows[static_cast<std::size_t>(k)])] = k;
 
   auto& r = out.reduced;
   r.c0 += p.c0;
@@ -189,14 +194,13 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
   r.A.resize(mr, nr);
   r.A.setFromTriplets(t.begin(), t.end());
   r.A.makeCompressed();
-  (void)inf;
   return out;
 }
 
 /// Row and column scale factors: A_scaled = diag(row) A diag(col).
 struct lp_scaling {
   Eigen::VectorXd row, col;
-  double cost = 1.0;   // c_scaled = diag(col) c / cost
+  double cost = 1.0;  // c_scaled = diag(col) c / cost
 };
 
 /// Ruiz equilibration (D. Ruiz, "A scaling algorithm to equilibrate both rows and columns
