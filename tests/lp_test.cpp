@@ -3,6 +3,7 @@
 #include <doctest/doctest.h>
 #include <glpk.h>
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 #include <qualify/lp.hpp>
@@ -543,6 +544,16 @@ TEST_CASE("bad input is a status with a message, not a crash") {
                                  Eigen::VectorXd(0), Eigen::VectorXd(0), Eigen::VectorXd(0));
   CHECK(empty.status == qualify::lp_status::optimal);
   CHECK(empty.objective == 0);
+  // The iteration limit is a status with the last iterate, not a failure to return.
+  qualify::lp_options few;
+  few.max_iterations = 2;
+  test_lp q = p;
+  q.A << 1, 2, 3, 1;  // no singleton rows, so presolve leaves it to the iterations
+  q.c = Eigen::Vector2d(-1, -1);
+  auto limited = solve(q, few);
+  CHECK(limited.status == qualify::lp_status::iteration_limit);
+  CHECK(limited.iterations == 2);
+  CHECK(limited.x.size() == 2);
   // A default result explains itself; the status strings are stable.
   CHECK(qualify::lp_result{}.message == "solve_lp was not called");
   CHECK(qualify::to_string(qualify::lp_status::numerical_trouble) == "numerical_trouble");
@@ -593,4 +604,18 @@ TEST_CASE("Netlib: optimal values match the published ones") {
     }
   }
   MESSAGE("Netlib files at the published optimum: ", reached, " of ", entries.size());
+  // The dense factorisations on real data with free columns, ranges and bounds.
+  for (const char* file : {"afiro.mps", "sc50a.mps", "boeing2.mps", "kb2.mps", "recipe.mps"}) {
+    CAPTURE(file);
+    const auto e = *std::find_if(entries.begin(), entries.end(), [&](const auto& x) { return x.file == file; });
+    auto m = qualify::read_mps_file(dir + "/" + file);
+    REQUIRE(m.ok());
+    qualify::lp_options o;
+    o.linear_solver = qualify::lp_linear_solver::dense;
+    auto r = qualify::solve_lp(Eigen::MatrixXd(m.matrix), m.objective, m.row_lower, m.row_upper, m.col_lower,
+                               m.col_upper, o, m.objective_constant);
+    CHECK(r.status == qualify::lp_status::optimal);
+    CHECK(r.linear_solver.rfind("dense_cholesky", 0) == 0);
+    CHECK(std::abs(r.objective - e.optimal_value) <= 1e-6 * std::max(1.0, std::abs(e.optimal_value)));
+  }
 }
