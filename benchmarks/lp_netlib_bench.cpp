@@ -74,8 +74,9 @@ int main(int argc, char** argv) {
     fmt::print("glpsol not found (Debian package glpk-utils)\n");
     return 1;
   }
-  fmt::print("{:<14} {:>5} {:>9} {:>9} {:>9} {:>7} {:>7}  {:<4} {:<4} {:<4}\n", "file", "iter",
-             "ours_s", "ipm_s", "splx_s", "o/ipm", "o/splx", "ours", "ipm", "splx");
+  fmt::print("{:<14} {:>5} {:>9} {:>9} {:>9} {:>7} {:>7}  {:<4} {:<4} {:<4} {}\n", "file", "iter",
+             "ours_s", "ipm_s", "splx_s", "o/ipm", "o/splx", "ours", "ipm", "splx",
+             "factorisation");
   double total_ours = 0, total_ipm = 0, total_simplex = 0;
   int ok_ours = 0, ok_ipm = 0, ok_simplex = 0;
   for (const auto& e : entries) {
@@ -108,9 +109,10 @@ int main(int argc, char** argv) {
     total_ours += best;
     total_ipm += ipm.seconds;
     total_simplex += splx.seconds;
-    fmt::print("{:<14} {:>5} {:>9.4f} {:>9.4f} {:>9.4f} {:>7.2f} {:>7.2f}  {:<4} {:<4} {:<4}\n",
+    fmt::print("{:<14} {:>5} {:>9.4f} {:>9.4f} {:>9.4f} {:>7.2f} {:>7.2f}  {:<4} {:<4} {:<4} {}\n",
                e.file, r.iterations, best, ipm.seconds, splx.seconds, best / ipm.seconds,
-               best / splx.seconds, a ? "yes" : "NO", b ? "yes" : "NO", c ? "yes" : "NO");
+               best / splx.seconds, a ? "yes" : "NO", b ? "yes" : "NO", c ? "yes" : "NO",
+               r.linear_solver);
   }
   fmt::print("{:<14} {:>5} {:>9.3f} {:>9.3f} {:>9.3f} {:>7.2f} {:>7.2f}  {:<4} {:<4} {:<4}\n",
              "total", "", total_ours, total_ipm, total_simplex, total_ours / total_ipm,

@@ -109,10 +109,11 @@ struct lp_result {
   /// bounds; unbounded: -c^T d), relative to the size of its terms.
   double certificate_margin = 0;
   Index presolve_removed_rows = 0, presolve_removed_cols = 0;
-  /// The factorisation used: "dense_cholesky_rows" (m x m normal matrix: dense A, or a
-  /// sparse A whose normal matrix is more than 25% full), "dense_cholesky_columns" (dense A
-  /// with more rows than columns: an n x n matrix; "dense_cholesky_columns_then_rows" when it
-  /// lost accuracy near a degenerate optimum), or "sparse_ldlt"; "" when no iteration ran.
+  /// The factorisations used, in order, joined by '+': "sparse_ldlt", "sparse_ldlt_dense_columns"
+  /// (dense columns by a low-rank update), "dense_cholesky_rows" (m x m normal matrix: dense A,
+  /// or a sparse A whose normal matrix is more than 25% full), "dense_cholesky_columns"
+  /// (dense A with more rows than columns: n x n). A method that loses accuracy near a
+  /// degenerate optimum hands over to the m x m one. "" when no iteration ran.
   std::string linear_solver;
 };
 

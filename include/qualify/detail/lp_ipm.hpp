@@ -130,7 +130,7 @@ struct ipm_result {
   double primal_residual = 0, dual_residual = 0, gap = 0;  // relative, as tested
   double tau = 1, kappa = 1;
   std::string message;
-  std::string linear_solver;  // normal_equations::method()
+  std::string linear_solver;  // normal_equations::methods()
 };
 
 /// Blocked left-looking Cholesky of a symmetric positive semidefinite matrix (lower
@@ -220,6 +220,21 @@ class normal_equations {
 
   /// Returns false when the factorisation fails even after raising delta.
   bool factor(const Eigen::VectorXd& d, double delta) {
+    const bool ok = factor_any(d, delta);
+    if (ok && (used_.empty() || used_.back() != method())) used_.push_back(method());
+    return ok;
+  }
+
+  /// The methods used so far, in order, joined by '+' (e.g. "sparse_ldlt_dense_columns+
+  /// dense_cholesky_rows" when the dense-column update lost accuracy).
+  std::string methods() const {
+    std::string all;
+    for (const char* u : used_) all += (all.empty() ? "" : "+") + std::string(u);
+    return all;
+  }
+
+ private:
+  bool factor_any(const Eigen::VectorXd& d, double delta) {
     d_ = d;
     for (int attempt = 0; attempt < 6; ++attempt, delta *= 100) {
       delta_ = delta;
@@ -239,19 +254,7 @@ class normal_equations {
         chol_.compute(std::move(M));
         if (chol_.ok()) return true;
       } else {
-        if (!analysed_) {
-          // A normal matrix with more than a quarter of its entries nonzero factors faster
-          // densely (measured on Netlib's seba, 39% dense: see the benchmark).
-          // Structure only: with every entry set to 1 no product can cancel to zero.
-          lp_sparse ones = A_;
-          std::fill(ones.valuePtr(), ones.valuePtr() + ones.nonZeros(), 1.0);
-          lp_sparse pattern = ones * ones.transpose();
-          const double m = static_cast<double>(pattern.rows());
-          dense_factor_ =
-              pattern.rows() > 0 && static_cast<double>(pattern.nonZeros()) > 0.25 * m * m;
-          analysed_ = true;
-          if (!dense_factor_) prepare_sparse_pattern(pattern);
-        }
+        if (!analysed_) analyse();
         if (dense_factor_) {
           // Lower triangle of sum_k d_k a_k a_k^T, column by column: sum_k nnz_k^2 / 2 flops.
           const Eigen::Index m = A_.rows();
@@ -276,12 +279,30 @@ class normal_equations {
             values[pair_slot_[q]] += pair_product_[q] * d[k];
         ldlt_.setShift(delta);
         ldlt_.factorize(M_);
-        if (ldlt_.info() == Eigen::Success && (ldlt_.vectorD().array() > 0).all()) return true;
+        if (ldlt_.info() != Eigen::Success || !(ldlt_.vectorD().array() > 0).all()) continue;
+        if (dense_cols_.empty()) return true;
+        // Dense columns by Sherman-Morrison-Woodbury: M = M_s + A_d K_d A_d^T, with
+        // W = M_s^-1 A_d and C = K_d^-1 + A_d^T W (k x k).
+        const auto k = static_cast<Eigen::Index>(dense_cols_.size());
+        Eigen::MatrixXd Ad(A_.rows(), k);
+        Eigen::VectorXd kinv(k);
+        for (Eigen::Index q = 0; q < k; ++q) {
+          const Eigen::Index col = dense_cols_[static_cast<std::size_t>(q)];
+          Ad.col(q) = A_.col(col);
+          kinv[q] = 1.0 / d[col];
+        }
+        W_ = ldlt_.solve(Ad);
+        Eigen::MatrixXd C = Ad.transpose() * W_;
+        C.diagonal() += kinv;
+        small_.compute(std::move(C), &kinv);
+        Ad_dense_cols_ = std::move(Ad);
+        if (small_.ok()) return true;
       }
     }
     return false;
   }
 
+ public:
   /// Solves M x = r with two steps of iterative refinement against the unshifted M.
   /// The column-space factorisation loses accuracy once many rows are active (Theta_I^-1
   /// huge); when its refined residual exceeds 1e-8 relative, the rest of the solve uses
@@ -293,12 +314,15 @@ class normal_equations {
       res = r - apply(x);
       x += raw_solve(res);
     }
-    if (columns_) {
+    if (columns_ || !dense_cols_.empty()) {
       res = r - apply(x);
       const double scale = r.lpNorm<Eigen::Infinity>() + (r - res).lpNorm<Eigen::Infinity>();
       if (res.lpNorm<Eigen::Infinity>() > 1e-8 * scale) {
+        if (!dense_cols_.empty()) {  // back to the plain normal matrix
+          allow_dense_columns_ = false;
+          analysed_ = false;
+        }
         columns_ = false;
-        switched_ = true;
         if (!factor(d_, delta_))
           return Eigen::VectorXd::Constant(r.size(), std::numeric_limits<double>::quiet_NaN());
         return solve(r);
@@ -308,11 +332,10 @@ class normal_equations {
   }
 
   /// The factorisation in use: "dense_cholesky_columns" (n x n, more rows than columns),
-  /// "dense_cholesky_columns_then_rows" (that, until it lost accuracy), "dense_cholesky_rows"
-  /// (m x m) or "sparse_ldlt".
+  /// "dense_cholesky_rows" (m x m), "sparse_ldlt_dense_columns" or "sparse_ldlt".
   const char* method() const {
     if (columns_) return "dense_cholesky_columns";
-    if (switched_) return "dense_cholesky_columns_then_rows";
+    if (!dense_cols_.empty()) return "sparse_ldlt_dense_columns";
     return dense_ || dense_factor_ ? "dense_cholesky_rows" : "sparse_ldlt";
   }
 
@@ -323,15 +346,49 @@ class normal_equations {
   }
 
  private:
+  // Chooses the sparse method once: columns with more than max(40, 10 x average) entries
+  // (at most m / 10 of them) are dense columns, kept out of the pattern (Andersen,
+  // Roos, Terlaky, Trafalis and Warners, "The use of low-rank updates in interior-point
+  // methods", 1996); a pattern more than 25% full factors densely instead (measured on
+  // Netlib's seba, 39% full with its 14 dense columns, 1% without).
+  void analyse() {
+    analysed_ = true;
+    const Eigen::Index m = A_.rows(), N = A_.cols();
+    dense_cols_.clear();
+    if (allow_dense_columns_ && N > 0) {
+      const double average = static_cast<double>(A_.nonZeros()) / static_cast<double>(N);
+      for (Eigen::Index k = 0; k < N; ++k)
+        if (static_cast<double>(A_.col(k).nonZeros()) > std::max(40.0, 10 * average))
+          dense_cols_.push_back(k);
+      if (static_cast<Eigen::Index>(dense_cols_.size()) > m / 10) dense_cols_.clear();
+    }
+    std::vector<bool> is_dense(static_cast<std::size_t>(N), false);
+    for (auto k : dense_cols_) is_dense[static_cast<std::size_t>(k)] = true;
+    // Structure only: with every entry set to 1 no product can cancel to zero.
+    lp_sparse ones = A_;
+    for (Eigen::Index k = 0; k < N; ++k)
+      for (lp_sparse::InnerIterator it(ones, k); it; ++it)
+        it.valueRef() = is_dense[static_cast<std::size_t>(k)] ? 0.0 : 1.0;
+    lp_sparse pattern = ones * ones.transpose();
+    pattern.prune(0.0);
+    const double md = static_cast<double>(m);
+    dense_factor_ = m > 0 && static_cast<double>(pattern.nonZeros()) > 0.25 * md * md;
+    if (dense_factor_) {
+      dense_cols_.clear();
+      return;
+    }
+    prepare_sparse_pattern(pattern, is_dense);
+  }
+
   // The lower triangle of A A^T as a fixed pattern, and for every column k of A the
   // slots of M its products a_ik a_jk (i >= j) add to; analysed (AMD) once.
-  void prepare_sparse_pattern(const lp_sparse& full) {
+  void prepare_sparse_pattern(const lp_sparse& full, const std::vector<bool>& skip) {
     M_ = full.triangularView<Eigen::Lower>();
     M_.makeCompressed();
     ldlt_.analyzePattern(M_);
     pair_start_.assign(1, 0);
     for (Eigen::Index k = 0; k < A_.cols(); ++k) {
-      for (lp_sparse::InnerIterator i(A_, k); i; ++i)
+      for (lp_sparse::InnerIterator i(A_, k); i && !skip[static_cast<std::size_t>(k)]; ++i)
         for (lp_sparse::InnerIterator j(A_, k); j && j.row() <= i.row(); ++j) {
           // M_ column j.row() holds rows >= j.row(), sorted: find row i.row().
           const Eigen::Index* begin = M_.innerIndexPtr() + M_.outerIndexPtr()[j.row()];
@@ -403,7 +460,10 @@ class normal_equations {
       }
       return y;
     }
-    return dense_ || dense_factor_ ? chol_.solve(r) : Eigen::VectorXd(ldlt_.solve(r));
+    if (dense_ || dense_factor_) return chol_.solve(r);
+    Eigen::VectorXd z = ldlt_.solve(r);
+    if (!dense_cols_.empty()) z -= W_ * small_.solve(Ad_dense_cols_.transpose() * z);
+    return z;
   }
 
   const lp_sparse& A_;
@@ -416,7 +476,6 @@ class normal_equations {
   dense_cholesky chol_;
   // Column-space factorisation (columns_): A_I^T, A_E, Theta_I^-1, G^-1 A_E^T, S.
   bool columns_ = false;
-  bool switched_ = false;  // columns_ was given up for the m x m factorisation
   std::vector<Eigen::Index> equality_rows_;
   Eigen::MatrixXd AI_, AE_, GinvAEt_;
   Eigen::VectorXd theta_inv_;
@@ -424,7 +483,12 @@ class normal_equations {
   Eigen::SimplicialLDLT<lp_sparse, Eigen::Lower, Eigen::AMDOrdering<Eigen::Index>> ldlt_;
   bool analysed_ = false;
   bool dense_factor_ = false;  // sparse A whose normal matrix factors densely
-  lp_sparse M_;                // lower triangle of A diag(d) A^T on a fixed pattern
+  bool allow_dense_columns_ = true;
+  std::vector<const char*> used_;         // methods in order of first use
+  std::vector<Eigen::Index> dense_cols_;  // kept out of the sparse factor (see analyse)
+  Eigen::MatrixXd Ad_dense_cols_, W_;
+  dense_cholesky small_;
+  lp_sparse M_;  // lower triangle of A diag(d) A^T on a fixed pattern
   std::vector<std::size_t> pair_start_, pair_slot_;
   std::vector<double> pair_product_;
 };
@@ -467,7 +531,6 @@ class hsd_solver {
     const double nc = 1 + (c.size() ? c.lpNorm<Eigen::Infinity>() : 0.0);
     const double complementarity_count = static_cast<double>(N + n_boxed_ + 1);
     ipm_result r;
-    r.linear_solver = ne_.method();
     int slow_steps = 0;
 
     for (int iter = 0;; ++iter) {
@@ -548,7 +611,7 @@ class hsd_solver {
       }
       VectorXd Dinv = D.cwiseInverse();
       const bool factored = ne_.factor(Dinv, set_.regularization);
-      r.linear_solver = ne_.method();
+      r.linear_solver = ne_.methods();
       if (!factored) {
         r.status = ipm_status::numerical_trouble;
         r.message = "the normal equations could not be factored";
