@@ -78,6 +78,9 @@ struct lp_options {
   /// up to five times when a factorisation fails. 1e-12 solved the most Netlib problems
   /// among 1e-8 ... 1e-12 (measured; see the test's list).
   double regularization = 1e-12;
+  /// Gondzio centrality correctors per iteration (0: plain Mehrotra); each costs one solve
+  /// with the factorisation and is kept only when it lengthens the step by >= 1%.
+  int centrality_correctors = 2;
   /// |bound| >= infinity_threshold counts as no bound (the MPS convention of 1e30 and up).
   double infinity_threshold = 1e20;
   /// Rounds of Ruiz equilibration; 0 disables scaling.
@@ -192,6 +195,7 @@ inline std::string lp_validate(const lp_general& p, const lp_options& o) {
     return "options.step_fraction must be in (0, 1)";
   if (o.max_iterations < 0) return "options.max_iterations must be >= 0";
   if (o.scaling_passes < 0) return "options.scaling_passes must be >= 0";
+  if (o.centrality_correctors < 0) return "options.centrality_correctors must be >= 0";
   return {};
 }
 
@@ -376,6 +380,7 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
   set.max_iterations = o.max_iterations;
   set.step_fraction = o.step_fraction;
   set.regularization = o.regularization;
+  set.max_correctors = o.centrality_correctors;
   const double density = static_cast<double>(work.A.nonZeros()) /
                          std::max<double>(1.0, static_cast<double>(work.A.rows()) *
                                                    static_cast<double>(work.A.cols()));
