@@ -244,12 +244,14 @@ TEST_CASE("textbook LPs with their published optima") {
     REQUIRE(r.status == qualify::lp_status::optimal);
     CHECK(r.objective == doctest::Approx(-36).epsilon(1e-7));
     CHECK((r.x - Eigen::Vector2d(2, 6)).lpNorm<Eigen::Infinity>() < 1e-7);
-    // Shadow prices 0, 1.5, 1 (Hillier and Lieberman, sec. 4.7), as minimisation duals.
+    // Shadow prices 0, 1.5, 1 (same book, sec. 4.7; from memory), as minimisation duals.
     CHECK((r.row_duals - Eigen::Vector3d(0, -1.5, -1)).lpNorm<Eigen::Infinity>() < 1e-7);
     check_duals(p, r);
   }
   SUBCASE("Klee and Minty, How good is the simplex algorithm? (1972): optimum 5^n") {
-    // max sum 2^(n-j) x_j s.t. 2 sum_{j<i} 2^(i-j) x_j + x_i <= 5^i, x >= 0; optimum 5^n.
+    // max sum 2^(n-j) x_j s.t. 2 sum_{j<i} 2^(i-j) x_j + x_i <= 5^i, x >= 0; optimum 5^n
+    // (Klee and Minty, in Shisha (ed.), Inequalities III, 1972, pp. 159-175; this variant
+    // with 5^i as in Chvatal, Linear Programming, 1983, chapter 4; from memory).
     const int n = 8;
     test_lp p;
     p.A = Eigen::MatrixXd::Zero(n, n);
@@ -595,7 +597,8 @@ TEST_CASE("Netlib: optimal values match the published ones") {
     // both reach c^T x* = -18.7519; with the constant +7.113 that the MPS rule gives
     // the objective is -11.6389. INDEX.csv's note reads the sign the other way.
     const double value = e.file == "e226.mps" ? r.objective - m.objective_constant : r.objective;
-    // Source: Netlib lp/data readme, via INDEX.csv; tolerance 1e-6 relative (scrs8: 1e-5).
+    // Source: Netlib lp/data readme, via INDEX.csv; tolerance 1e-6 relative to
+    // max(1, |optimum|) (scrs8: 1e-5, INDEX.csv's note).
     const double rel = std::abs(value - e.optimal_value) / std::max(1.0, std::abs(e.optimal_value));
     const bool ok =
         r.status == qualify::lp_status::optimal && rel <= qualify_test::netlib_tolerance(e);
