@@ -7,3 +7,6 @@
 #include <qualify/constraints.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
+#include <qualify/matrix_market.hpp>
+#include <qualify/mps.hpp>
+#include <qualify/lp.hpp>
