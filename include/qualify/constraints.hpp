@@ -65,7 +65,8 @@ namespace detail {
 
 /// Chooses the active rows; the caller has checked sizes and finiteness.
 template <class Scalar>
-active_set select_active(const matrix<Scalar>& jacobian, const vector<Scalar>& values,
+active_set select_active(const Eigen::Ref<const matrix<Scalar>>& jacobian,
+                         const vector<Scalar>& values,
                          const std::vector<constraint_type>& types,
                          const activity_options& options) {
   active_set set;

@@ -167,7 +167,7 @@ triangle_bound<Scalar> bound_smallest_singular_value(const matrix<Scalar>& t) {
   const Scalar bound_on_inverse = std::min(frob, std::sqrt(one * inf));
   const Scalar error = Scalar(n) * std::numeric_limits<Scalar>::epsilon() * t.norm() * frob;
   if (error <= Scalar(0.5)) out.lower = (Scalar(1) - error) / bound_on_inverse;
-  const Scalar inverse_norm = two_norm_estimate(x);
+  const Scalar inverse_norm = upper_two_norm_estimate<Scalar>(x);
   out.estimate = inverse_norm > 0 ? Scalar(1) / inverse_norm : Scalar(0);
   return out;
 }
@@ -351,7 +351,7 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
   const Index r = decision.rank;
   rep.method = decision.method;
   rep.rank = r;
-  rep.largest_singular_value = double(two_norm_estimate(r_factor));
+  rep.largest_singular_value = double(upper_two_norm_estimate<Scalar>(r_factor));
   // Zero rows and more rows than variables are dependent by structure: distance 0.
   rep.smallest_singular_value =
       rep.zero_rows.empty() && k <= n ? double(decision.smallest_estimate) : 0.0;
@@ -575,10 +575,40 @@ std::optional<std::string> non_finite_message(const Eigen::MatrixBase<Derived>& 
          describe_non_finite(static_cast<long double>(m(bad->row, bad->col)));
 }
 
+inline std::string count_message(std::size_t have, const char* what, Index rows) {
+  return std::to_string(have) + " " + what + " for " + std::to_string(rows) + " rows";
+}
+
 template <class Derived>
 void check_scalar() {
   static_assert(std::is_floating_point_v<typename Derived::Scalar>,
                 "qualify checks take float, double or long double matrices");
+}
+
+}  // namespace detail
+
+namespace detail {
+
+/// The report both overloads start from: sizes, names, and the checks of the options, the
+/// labels and the entries; `result` is invalid_input when one of them fails.
+template <class Derived>
+licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const licq_options& options,
+                           std::vector<std::string> labels) {
+  check_scalar<Derived>();
+  licq_report rep;
+  rep.rows = jacobian.rows();
+  rep.cols = jacobian.cols();
+  rep.relative_threshold_requested = options.relative_threshold;
+  const std::size_t label_count = labels.size();
+  rep.names = row_names(std::move(labels));
+  if (auto bad = options.validate(); !bad.empty()) return invalid_licq(rep, "bad_option", bad);
+  if (label_count != 0 && label_count != std::size_t(rep.rows))
+    return invalid_licq(rep, "label_count", count_message(label_count, "labels", rep.rows));
+  if (rep.cols == 0)
+    return invalid_licq(rep, "empty_jacobian", "the Jacobian has no columns (variables)");
+  if (auto bad = non_finite_message(jacobian, "Jacobian"))
+    return invalid_licq(rep, "non_finite_entry", *bad);
+  return rep;
 }
 
 }  // namespace detail
@@ -590,23 +620,9 @@ void check_scalar() {
 template <class Derived>
 licq_report check_licq(const Eigen::MatrixBase<Derived>& jacobian, const licq_options& options = {},
                        std::vector<std::string> labels = {}) {
-  detail::check_scalar<Derived>();
   using Scalar = typename Derived::Scalar;
-  licq_report rep;
-  rep.rows = jacobian.rows();
-  rep.cols = jacobian.cols();
-  rep.relative_threshold_requested = options.relative_threshold;
-  const std::size_t label_count = labels.size();
-  rep.names = row_names(std::move(labels));
-  if (auto bad = options.validate(); !bad.empty()) return detail::invalid_licq(rep, "bad_option", bad);
-  if (label_count != 0 && label_count != std::size_t(rep.rows))
-    return detail::invalid_licq(rep, "label_count",
-                                std::to_string(label_count) + " labels for " +
-                                    std::to_string(rep.rows) + " rows");
-  if (rep.cols == 0)
-    return detail::invalid_licq(rep, "empty_jacobian", "the Jacobian has no columns (variables)");
-  if (auto bad = detail::non_finite_message(jacobian, "Jacobian"))
-    return detail::invalid_licq(rep, "non_finite_entry", *bad);
+  licq_report rep = detail::validated_licq(jacobian, options, std::move(labels));
+  if (rep.result == verdict::invalid_input) return rep;
   detail::analyze_rows<Scalar>(jacobian, options, {}, rep);
   detail::describe(rep, options, double(std::numeric_limits<Scalar>::epsilon()));
   return rep;
@@ -620,38 +636,22 @@ licq_report check_licq(const Eigen::MatrixBase<DerivedJ>& jacobian,
                        const Eigen::MatrixBase<DerivedV>& values,
                        const std::vector<constraint_type>& types, const licq_options& options = {},
                        std::vector<std::string> labels = {}) {
-  detail::check_scalar<DerivedJ>();
   using Scalar = typename DerivedJ::Scalar;
-  licq_report rep;
-  rep.rows = jacobian.rows();
-  rep.cols = jacobian.cols();
-  rep.relative_threshold_requested = options.relative_threshold;
-  const std::size_t label_count = labels.size();
-  rep.names = row_names(std::move(labels));
-  if (auto bad = options.validate(); !bad.empty()) return detail::invalid_licq(rep, "bad_option", bad);
-  const auto count = [&](std::size_t have, const char* what) {
-    return std::to_string(have) + " " + what + " for " + std::to_string(rep.rows) + " rows";
-  };
-  if (label_count != 0 && label_count != std::size_t(rep.rows))
-    return detail::invalid_licq(rep, "label_count", count(label_count, "labels"));
+  licq_report rep = detail::validated_licq(jacobian, options, std::move(labels));
+  if (rep.result == verdict::invalid_input) return rep;
   if (values.cols() != 1 || values.rows() != rep.rows)
-    return detail::invalid_licq(rep, "value_count", count(std::size_t(values.size()), "values"));
+    return detail::invalid_licq(rep, "value_count",
+                                detail::count_message(std::size_t(values.size()), "values", rep.rows));
   if (types.size() != std::size_t(rep.rows))
-    return detail::invalid_licq(rep, "type_count", count(types.size(), "types"));
-  if (rep.cols == 0)
-    return detail::invalid_licq(rep, "empty_jacobian", "the Jacobian has no columns (variables)");
-  if (auto bad = detail::non_finite_message(jacobian, "Jacobian"))
-    return detail::invalid_licq(rep, "non_finite_entry", *bad);
+    return detail::invalid_licq(rep, "type_count", detail::count_message(types.size(), "types", rep.rows));
   if (auto bad = detail::non_finite_message(values, "value"))
     return detail::invalid_licq(rep, "non_finite_entry", *bad);
 
-  const detail::matrix<Scalar> full = jacobian;
+  const Eigen::Ref<const detail::matrix<Scalar>> full(jacobian);
   const detail::vector<Scalar> vals = values.template cast<Scalar>();
-  active_set set = detail::select_active<Scalar>(full, vals, types, options.activity);
-  const Eigen::Index n_active = Index(set.active.size());
-  const detail::matrix<Scalar> sub = full(set.active, Eigen::all);
-  rep.rows = n_active;
-  rep.active = std::move(set);
+  rep.active = detail::select_active<Scalar>(full, vals, types, options.activity);
+  rep.rows = Index(rep.active->active.size());
+  const detail::matrix<Scalar> sub = full(rep.active->active, Eigen::all);
   detail::analyze_rows<Scalar>(sub, options, rep.active->active, rep);
   detail::describe(rep, options, double(std::numeric_limits<Scalar>::epsilon()));
   return rep;
