@@ -435,8 +435,10 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
     add_finding(rep.findings, severity::warning, "inconsistent_with_licq",
                 "LICQ holds, which implies MFCQ: the two numerical decisions disagree", {}, names);
 
-  const std::string counted = std::to_string(ma) + " active inequalit" + (ma == 1 ? "y" : "ies") +
-                              " and " + std::to_string(me) + " equalit" + (me == 1 ? "y" : "ies");
+  const std::string counted =
+      "decreases all " + std::to_string(ma) + " active inequalit" + (ma == 1 ? "y" : "ies") +
+      (me > 0 ? " and keeps the " + std::to_string(me) + " equalit" + (me == 1 ? "y" : "ies")
+              : std::string());
   switch (rep.result) {
     case verdict::holds:
       if (ma == 0) {
@@ -444,7 +446,7 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
                       " equality gradients are linearly independent";
         break;
       }
-      rep.message = "MFCQ holds: a direction keeps the equalities and decreases all " + counted +
+      rep.message = "MFCQ holds: a direction " + counted +
                     " (verified margin " + fig(rep.direction_margin) + ", t* = " + fig(rep.margin) +
                     ", threshold " + fig(tau) + ")";
       if (licq_holds) rep.message += "; LICQ holds too, so multipliers are unique";
