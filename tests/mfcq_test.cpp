@@ -348,3 +348,33 @@ TEST_CASE("report output: brief, full and JSON forms") {
   CHECK(json.find("\"ineq_rows\":[0,1]") != std::string::npos);
   CHECK(json.find("\"eq_rows\":[]") != std::string::npos);
 }
+
+TEST_CASE("larger cases: 300 active rows, 20 equalities, 150 variables agree with GLPK") {
+  // Sizes of the dense MFCQ LP of tests/lp_test.cpp; one case holds (a cone with interior,
+  // built around a direction d0), one fails (a row added as minus a positive mix of others).
+  std::mt19937 rng(29);
+  const Index ma = 300, me = 20, n = 150;
+  const MatrixXd e = gaussian(me, n, rng);
+  MatrixXd a = gaussian(ma, n, rng);
+  // Keep a d0 in null(E) with a_i . d0 < 0 for every row: flip the rows that increase along d0.
+  VectorXd d0 = VectorXd::NullaryExpr(n, [&] { return std::normal_distribution<double>()(rng); });
+  d0 -= e.transpose() * (e * e.transpose()).ldlt().solve(e * d0);
+  for (Index i = 0; i < ma; ++i)
+    if (a.row(i).dot(d0) > 0) a.row(i) *= -1;
+  SUBCASE("holds") {
+    const auto rep = check_mfcq(a, e);
+    QUALIFY_CHECK_HOLDS(rep);
+    CHECK(std::abs(rep.margin - glpk_margin(a, e)) <= 1e-7);  // GLPK simplex
+    check_claims(rep, a, e);
+  }
+  SUBCASE("fails") {
+    a.row(ma - 1) = -(a.row(3) + 2 * a.row(70) + 0.5 * a.row(200)) + gaussian(1, me, rng) * e;
+    const auto rep = check_mfcq(a, e);
+    QUALIFY_CHECK_FAILS(rep);
+    CHECK(std::abs(rep.margin - glpk_margin(a, e)) <= 1e-7);  // GLPK simplex
+    check_claims(rep, a, e);
+    for (Index i : {Index(3), Index(70), Index(200), ma - 1})
+      CHECK(std::find(rep.certificate.ineq_rows.begin(), rep.certificate.ineq_rows.end(), i) !=
+            rep.certificate.ineq_rows.end());
+  }
+}
