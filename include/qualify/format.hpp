@@ -93,9 +93,11 @@ inline std::string render(const mfcq_report& r, bool full) {
     if (r.certificate.kind != mfcq_certificate_kind::none) {
       std::vector<Index> eq_rows;
       for (Index j : r.certificate.eq_rows) eq_rows.push_back(r.ineq_rows + j);
-      out += fmt::format("  certificate  {}: residual {:.3g}, t* <= {:.3g}\n",
-                         to_string(r.certificate.kind), r.certificate.residual,
-                         r.certificate.margin_bound);
+      out += fmt::format("  certificate  {}: residual {:.3g}", to_string(r.certificate.kind),
+                         r.certificate.residual);
+      if (r.certificate.kind == mfcq_certificate_kind::positive_dependence)
+        out += fmt::format(", t* <= {:.3g}", r.certificate.margin_bound);
+      out += "\n";
       out += "  lambda > 0   " + join_rows(r.certificate.ineq_rows, r.names) + "\n";
       out += "  mu != 0      " + join_rows(eq_rows, r.names) + "\n";
     }

@@ -108,7 +108,7 @@ struct mfcq_report {
   double deciding_value = 0;
   /// The direction found (||d||_inf = 1, projected on null(E)), and what it does, checked on
   /// the data: -max_i a_i . d / ||a_i|| (> 0 proves A d < 0), max_i (A d)_i as given, and
-  /// max_j |e_j . d| / ||e_j||.
+  /// max_j |e_j . d| / ||e_j||. Empty (figures 0) when it decreases not every inequality.
   Eigen::VectorXd direction;
   double direction_margin = 0;
   double max_ineq_derivative = 0;
@@ -325,6 +325,10 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
               std::max(rep.equality_residual, std::abs(e.row(j).dot(d)) / e_norm(j));
       if (rep.direction_margin >= band * tau && rep.equality_residual <= tau && dn > 0)
         dir_verdict = verdict::holds;
+      if (!(rep.direction_margin > 0)) {  // decreases nothing for sure: not worth showing
+        rep.direction.resize(0);
+        rep.direction_margin = rep.max_ineq_derivative = rep.equality_residual = 0;
+      }
       // Duals: c = A^T y + z; inequality rows sit at their upper bound, so y <= 0 there.
       lambda_unit = (-lp.row_duals.head(ma)).cwiseMax(0.0);
       mu_unit = -lp.row_duals.tail(q);
