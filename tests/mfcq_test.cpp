@@ -2,13 +2,13 @@
 // SPDX-License-Identifier: MIT
 #include <doctest/doctest.h>
 #include <glpk.h>
-#include <qualify/doctest.hpp>
-#include <qualify/json.hpp>
-#include <qualify/mfcq.hpp>
 
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <qualify/doctest.hpp>
+#include <qualify/json.hpp>
+#include <qualify/mfcq.hpp>
 #include <random>
 
 #include "reference.hpp"
@@ -72,8 +72,7 @@ void check_claims(const mfcq_report& r, const MatrixXd& a, const MatrixXd& e) {
     REQUIRE(r.direction.size() == a.cols());
     CHECK((a * r.direction).maxCoeff() < 0);
     CHECK(r.direction.lpNorm<Eigen::Infinity>() == doctest::Approx(1.0));
-    if (e.rows() > 0)
-      CHECK((normalise_rows(e) * r.direction).lpNorm<Eigen::Infinity>() <= 1e-12);
+    if (e.rows() > 0) CHECK((normalise_rows(e) * r.direction).lpNorm<Eigen::Infinity>() <= 1e-12);
   }
   if (r.certificate.kind == mfcq_certificate_kind::positive_dependence) {
     const auto& c = r.certificate;

@@ -2,15 +2,14 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
-#include <qualify/licq.hpp>
-#include <qualify/lp.hpp>
-#include <qualify/report.hpp>
-
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
 #include <limits>
 #include <optional>
+#include <qualify/licq.hpp>
+#include <qualify/lp.hpp>
+#include <qualify/report.hpp>
 #include <string>
 #include <vector>
 
@@ -70,9 +69,12 @@ enum class mfcq_certificate_kind {
 
 constexpr std::string_view to_string(mfcq_certificate_kind k) noexcept {
   switch (k) {
-    case mfcq_certificate_kind::positive_dependence: return "positive_dependence";
-    case mfcq_certificate_kind::equality_dependence: return "equality_dependence";
-    case mfcq_certificate_kind::none: break;
+    case mfcq_certificate_kind::positive_dependence:
+      return "positive_dependence";
+    case mfcq_certificate_kind::equality_dependence:
+      return "equality_dependence";
+    case mfcq_certificate_kind::none:
+      break;
   }
   return "none";
 }
@@ -115,10 +117,10 @@ struct mfcq_report {
   double equality_residual = 0;
   lp_status lp = lp_status::not_solved;
   int lp_iterations = 0;
-  mfcq_certificate certificate;  ///< when MFCQ fails (or undecided: the best one found)
+  mfcq_certificate certificate;              ///< when MFCQ fails (or undecided: the best one found)
   std::optional<licq_report> equality_licq;  ///< rank of E (E's own row numbers)
   std::optional<licq_report> licq;           ///< LICQ on [A; E] (combined row numbers)
-  row_names names;  ///< labels as given, or "ineq i" / "eq j"
+  row_names names;                           ///< labels as given, or "ineq i" / "eq j"
   std::vector<finding> findings;
 };
 
@@ -146,7 +148,8 @@ inline void polish_dependence(const Eigen::MatrixXd& a_support, const Eigen::Mat
   p.topLeftCorner(s, s).array() -= 1.0 / double(s);
   const Eigen::MatrixXd mp = m * p;
   const Eigen::VectorXd r0 = m * z;
-  const Eigen::VectorXd step = p * Eigen::CompleteOrthogonalDecomposition<Eigen::MatrixXd>(mp).solve(-r0);
+  const Eigen::VectorXd step =
+      p * Eigen::CompleteOrthogonalDecomposition<Eigen::MatrixXd>(mp).solve(-r0);
   const Eigen::VectorXd polished = z + step;
   if (!polished.allFinite() || polished.head(s).minCoeff() < 0) return;
   if ((m * polished).norm() >= r0.norm()) return;
@@ -184,7 +187,8 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
     for (Index j = 0; j < me; ++j) labels.push_back("eq " + std::to_string(j));
   }
   rep.names = row_names(labels);
-  if (auto bad = options.validate(); !bad.empty()) return detail::invalid_mfcq(rep, "bad_option", bad);
+  if (auto bad = options.validate(); !bad.empty())
+    return detail::invalid_mfcq(rep, "bad_option", bad);
   if (label_count != 0 && label_count != std::size_t(ma + me)) {
     rep.names = row_names();
     return detail::invalid_mfcq(rep, "label_count",
@@ -195,10 +199,10 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
   const bool a_sized = ma > 0 || ineq_jacobian.cols() > 0;
   const bool e_sized = me > 0 || eq_jacobian.cols() > 0;
   if (a_sized && e_sized && ineq_jacobian.cols() != eq_jacobian.cols())
-    return detail::invalid_mfcq(rep, "dimension_mismatch",
-                                "the inequality Jacobian has " + std::to_string(ineq_jacobian.cols()) +
-                                    " columns, the equality Jacobian " +
-                                    std::to_string(eq_jacobian.cols()));
+    return detail::invalid_mfcq(
+        rep, "dimension_mismatch",
+        "the inequality Jacobian has " + std::to_string(ineq_jacobian.cols()) +
+            " columns, the equality Jacobian " + std::to_string(eq_jacobian.cols()));
   if (ma + me > 0 && rep.cols == 0)
     return detail::invalid_mfcq(rep, "empty_jacobian", "the Jacobians have no columns (variables)");
   if (auto bad = detail::non_finite_message(ineq_jacobian, "inequality Jacobian"))
@@ -221,8 +225,8 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
   }
 
   const MatrixXd a = ineq_jacobian.template cast<double>();
-  const MatrixXd e = eq_jacobian.rows() > 0 ? MatrixXd(eq_jacobian.template cast<double>())
-                                            : MatrixXd(0, n);
+  const MatrixXd e =
+      eq_jacobian.rows() > 0 ? MatrixXd(eq_jacobian.template cast<double>()) : MatrixXd(0, n);
   const std::vector<std::string> eq_labels(labels.begin() + ma, labels.end());
 
   // Rank of E, with its dependent rows explained by the LICQ analysis.
@@ -361,7 +365,8 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
     cert.lambda = VectorXd::Zero(ma);
     cert.mu = VectorXd::Zero(me);
     for (Index i = 0; i < ma; ++i)
-      if (lambda_unit(i) > 0) cert.lambda(i) = a_norm(i) > 0 ? lambda_unit(i) / a_norm(i) : lambda_unit(i);
+      if (lambda_unit(i) > 0)
+        cert.lambda(i) = a_norm(i) > 0 ? lambda_unit(i) / a_norm(i) : lambda_unit(i);
     for (Index k = 0; k < q; ++k) cert.mu(eq_used[k]) = mu_unit(k) / e_norm(eq_used[k]);
     if (!zero_rows.empty()) cert.margin_bound = 0;
   } else if (eq_verdict == verdict::fails) {
@@ -395,7 +400,7 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
     rep.result = verdict::holds;
   else
     rep.result = verdict::undecided;
-  rep.deciding_value = dir_verdict == verdict::holds ? rep.direction_margin
+  rep.deciding_value = dir_verdict == verdict::holds   ? rep.direction_margin
                        : dir_verdict == verdict::fails ? cert.margin_bound
                                                        : rep.margin;
 
@@ -450,9 +455,9 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
                       " equality gradients are linearly independent";
         break;
       }
-      rep.message = "MFCQ holds: a direction " + counted +
-                    " (verified margin " + fig(rep.direction_margin) + ", t* = " + fig(rep.margin) +
-                    ", threshold " + fig(tau) + ")";
+      rep.message = "MFCQ holds: a direction " + counted + " (verified margin " +
+                    fig(rep.direction_margin) + ", t* = " + fig(rep.margin) + ", threshold " +
+                    fig(tau) + ")";
       if (licq_holds) rep.message += "; LICQ holds too, so multipliers are unique";
       if (licq_fails) rep.message += "; LICQ fails: multipliers are bounded but need not be unique";
       break;
@@ -476,8 +481,8 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
       else if (rep.lp != lp_status::optimal)
         rep.message += "the LP ended " + std::string(to_string(rep.lp));
       else
-        rep.message += "the margin lies between the threshold and " + fig(band) +
-                       " x the threshold" + figures;
+        rep.message +=
+            "the margin lies between the threshold and " + fig(band) + " x the threshold" + figures;
   }
   return rep;
 }
