@@ -1,7 +1,7 @@
 # qualify: tests of the qualify command on files this script writes (verdicts, JSON, labels, errors).
 # SPDX-License-Identifier: MIT
 #
-# cmake -DQUALIFY=<the qualify binary> -DGROUP=<verdicts|json|labels|errors|usage>
+# cmake -DQUALIFY=<the qualify binary> -DGROUP=<verdicts|json|labels|errors|usage|mfcq>
 #       -DWORK_DIR=<scratch folder> -DVERSION=<project version> [-DJQ=<jq>] -P cli_test.cmake
 # Every check runs the binary and compares its exit status exactly, so a crash (a signal name
 # instead of a number) fails. JSON is parsed with string(JSON) and, when jq is found, also by
@@ -478,6 +478,111 @@ elseif(GROUP STREQUAL "usage")
   # Usage errors come before files are read: a missing file with a bad option is a usage error.
   run(licq missing.mtx --tol 0)
   expect_rc(64)
+
+elseif(GROUP STREQUAL "mfcq")
+  # Three lines through a point, -x1 <= 0, -x2 <= 0, -x1 - x2 <= 0 at 0: LICQ fails (three
+  # gradients in the plane), MFCQ holds with d = (1, 1) and t* = 1, the LP's cap (hand-checked).
+  write_mtx(fan.mtx 3 2 "1 1 -1" "2 2 -1" "3 1 -1" "3 2 -1")
+  run(mfcq --ineq fan.mtx)
+  expect_rc(0)
+  expect_in(out "MFCQ holds")
+  expect_in(out "LICQ fails: multipliers are bounded but need not be unique")
+  expect_in(out "mfcq_without_licq")
+  run(mfcq --ineq fan.mtx --json)
+  expect_rc(0)
+  expect_json()
+  expect_key(mfcq check)
+  expect_key(holds verdict)
+  expect_key(1 deciding_value)  # the direction's margin, checked directly: d = (1, 1)
+  expect_type(NUMBER margin)    # t* as the LP returns it (1 to the LP's accuracy)
+  expect_key(fails licq verdict)
+
+  # The Kuhn-Tucker cusp (cusp.mtx, above): MFCQ fails, lambda = (1/2, 1/2) on both rows.
+  run(mfcq --ineq cusp.mtx --labels cusp.labels)
+  expect_rc(1)
+  expect_in(out "MFCQ fails: the active gradients are positively dependent")
+  expect_in(out "lambda > 0   cusp, x2_nonneg")
+  run(mfcq --ineq=cusp.mtx --json)
+  expect_rc(1)
+  expect_json()
+  expect_key(fails verdict)
+  expect_key(positive_dependence certificate kind)
+  expect_key(0 certificate ineq_rows 0)
+  expect_key(1 certificate ineq_rows 1)
+  expect_length(0 certificate eq_rows)
+  expect_type(NUMBER certificate residual)
+  expect_key(0.5 certificate lambda 0)
+
+  # Scheel and Scholtes (Math. Oper. Res. 25, 2000), complementarity at (0, 0): zero gradient.
+  run(mfcq --ineq complementarity.mtx --json)
+  expect_rc(1)
+  expect_key(2 certificate ineq_rows 0)
+
+  # An equality duplicated (hand-checkable): E = [(0, 1), (0, 1)] has rank 1.
+  write_mtx(one_ineq.mtx 1 2 "1 1 1")
+  write_mtx(eq_twice.mtx 2 2 "1 2 1" "2 2 1")
+  run(mfcq --ineq one_ineq.mtx --eq eq_twice.mtx --json)
+  expect_rc(1)
+  expect_json()
+  expect_key(equality_dependence certificate kind)
+  expect_length(0 certificate ineq_rows)
+  expect_length(2 certificate eq_rows)
+  expect_key(1 equality_licq rank)
+  run(mfcq --ineq one_ineq.mtx --eq eq_twice.mtx)
+  expect_in(out "equality_rank_deficient")
+
+  # Equalities with a consistent inequality: -x1 <= 0 with x2 = 0 holds (d = (1, 0)).
+  write_mtx(eq_one.mtx 1 2 "1 2 1")
+  write_mtx(minus_x1.mtx 1 2 "1 1 -1")
+  run(mfcq --ineq minus_x1.mtx --eq eq_one.mtx)
+  expect_rc(0)
+  run(INPUT eq_one.mtx mfcq --ineq minus_x1.mtx --eq -)
+  expect_rc(0)
+
+  # No rows at all: holds vacuously.
+  write(none2.mtx "%%MatrixMarket matrix coordinate real general\n0 2 0\n")
+  run(mfcq --ineq none2.mtx)
+  expect_rc(0)
+  expect_in(out "vacuously")
+
+  # Nearly opposed rows (1, 0) and (-1, -1e-5): t* is about 5e-6 (hand-checked: s / 2);
+  # holds at the default tau 1e-7, undecided at 1e-6 (band 10), fails at 1e-4.
+  write_mtx(pinch.mtx 2 2 "1 1 1" "2 1 -1" "2 2 -1e-5")
+  run(mfcq --ineq pinch.mtx)
+  expect_rc(0)
+  run(mfcq --ineq pinch.mtx --tol 1e-6)
+  expect_rc(2)
+  expect_in(out "MFCQ undecided")
+  run(mfcq --ineq pinch.mtx --tol 1e-4 --json)
+  expect_rc(1)
+  expect_json()
+  expect_type(NUMBER relative_threshold_requested)
+
+  # Errors: counts that disagree, labels of the wrong length, files, usage.
+  write_mtx(three_cols.mtx 1 3 "1 3 1")
+  run_args(mfcq --ineq cusp.mtx --eq three_cols.mtx)
+  expect_error(65 three_cols.mtx)
+  expect_in(err "2 columns, the equality Jacobian 3")
+  run_args(mfcq --ineq cusp.mtx --eq eq_one.mtx --labels cusp.labels)
+  expect_error(65 cusp.labels)
+  expect_in(err "2 labels for the 3 rows of 'cusp.mtx' and 'eq_one.mtx'")
+  run_args(mfcq --ineq missing.mtx)
+  expect_error(66 missing.mtx)
+  write_mtx(nan.mtx 2 2 "1 2 nan" "2 2 -1")
+  run_args(mfcq --ineq cusp.mtx --eq nan.mtx)
+  expect_error(65 nan.mtx 3)
+  run(mfcq)
+  expect_rc(64)
+  expect_in(err "missing --ineq A.mtx")
+  run(mfcq --ineq cusp.mtx --tol 0)
+  expect_rc(64)
+  run(mfcq --ineq - --eq -)
+  expect_rc(64)
+  run(mfcq --help)
+  expect_rc(0)
+  expect_in(out "Usage: qualify mfcq --ineq A.mtx [--eq E.mtx] [--labels FILE] [--tol X] [--json]")
+  run(--help)
+  expect_in(out "mfcq")
 
 else()
   message(FATAL_ERROR "unknown GROUP '${GROUP}'")

@@ -132,6 +132,7 @@ struct option_spec {
   std::string_view name;        ///< "--tol"
   std::string_view value_name;  ///< "X"; empty for a flag
   std::string_view help;        ///< lines after the first are indented under it
+  bool required = false;        ///< a missing required option is a usage error
 };
 
 /// What a command accepts, and the text of its --help. Every command also takes --json and
@@ -169,6 +170,7 @@ inline std::string usage_text(const command_spec& spec) {
   for (auto operand : spec.operands) text += fmt::format(" {}", operand);
   for (const auto& o : spec.options)
     text += o.value_name.empty() ? fmt::format(" [{}]", o.name)
+            : o.required         ? fmt::format(" {} {}", o.name, o.value_name)
                                  : fmt::format(" [{} {}]", o.name, o.value_name);
   text += " [--json]\n\n";
   text += spec.description;
@@ -293,6 +295,9 @@ class invocation {
       if (!in.options_.emplace(std::string(option->name), std::move(value)).second)
         return usage(fmt::format("option {} is given twice", option->name));
     }
+    for (const auto& o : spec.options)
+      if (o.required && !in.flag(o.name))
+        return usage(fmt::format("missing {} {}", o.name, o.value_name));
     if (in.operands_.size() < spec.operands.size())
       return usage(fmt::format("missing {} argument", spec.operands[in.operands_.size()]));
     if (in.operands_.size() > spec.operands.size())

@@ -13,6 +13,7 @@
 #include <qualify/format.hpp>
 #include <qualify/json.hpp>
 #include <qualify/licq.hpp>
+#include <qualify/mfcq.hpp>
 #include <qualify/version.hpp>
 #include <string>
 #include <vector>
@@ -27,6 +28,23 @@ namespace {
 using qualify_cli::invocation;
 using qualify_cli::problem;
 using qualify_cli::shown_name;
+
+/// Label k sits on line k (blank lines come only at the end): name the first label without
+/// a row, or the last one when rows are left without a label. `of` names the matrices.
+problem label_count_problem(const std::string& labels_path, std::size_t n, std::size_t rows,
+                            const std::string& of) {
+  const std::optional<std::size_t> line = n > rows ? std::optional<std::size_t>(rows + 1)
+                                          : n > 0  ? std::optional<std::size_t>(n)
+                                                   : std::nullopt;
+  return {exit_code::data,
+          fmt::format("{}: {}{} label{} for the {} row{} of {}; {}", shown_name(labels_path),
+                      line ? fmt::format("line {}: ", *line) : std::string(), n, n == 1 ? "" : "s",
+                      rows, rows == 1 ? "" : "s", of,
+                      n > rows ? "this label has no row"
+                      : n > 0  ? "the labels end here"
+                               : "the file has no label"),
+          labels_path, line};
+}
 
 // ---- licq -----------------------------------------------------------------------------------
 
@@ -80,23 +98,8 @@ int run_licq(const invocation& in) {
   auto jacobian = qualify_cli::read_dense_jacobian(path);
   if (!jacobian) return in.fail(jacobian.error());
   const auto rows = static_cast<std::size_t>(jacobian->rows());
-  if (labels_path && labels.size() != rows) {
-    // Label k sits on line k (blank lines come only at the end): name the first label without
-    // a row, or the last one when rows are left without a label.
-    const std::size_t n = labels.size();
-    const std::optional<std::size_t> line = n > rows ? std::optional<std::size_t>(rows + 1)
-                                            : n > 0  ? std::optional<std::size_t>(n)
-                                                     : std::nullopt;
-    return in.fail(
-        {exit_code::data,
-         fmt::format("{}: {}{} label{} for the {} row{} of {}; {}", shown_name(*labels_path),
-                     line ? fmt::format("line {}: ", *line) : std::string(), n, n == 1 ? "" : "s",
-                     rows, rows == 1 ? "" : "s", shown_name(path),
-                     n > rows ? "this label has no row"
-                     : n > 0  ? "the labels end here"
-                              : "the file has no label"),
-         *labels_path, line});
-  }
+  if (labels_path && labels.size() != rows)
+    return in.fail(label_count_problem(*labels_path, labels.size(), rows, shown_name(path)));
 
   const qualify::licq_report report = qualify::check_licq(*jacobian, options, std::move(labels));
   if (report.result == qualify::verdict::invalid_input)
@@ -108,10 +111,91 @@ int run_licq(const invocation& in) {
   return qualify_cli::exit_for(report.result);
 }
 
+// ---- mfcq -----------------------------------------------------------------------------------
+
+const qualify_cli::command_spec mfcq_spec{
+    "mfcq",
+    "do the active gradients admit a strictly decreasing direction (MFCQ)?",
+    {},
+    {{"--ineq", "A.mtx",
+      "required: the Jacobian of the active inequalities g_i(x) <= 0, one row\n"
+      "per constraint (its gradient), one column per variable; 0 rows allowed",
+      true},
+     {"--eq", "E.mtx", "the Jacobian of the equality constraints (default: none)"},
+     {"--labels", "FILE",
+      "one label per line: the rows of A.mtx, then the rows of E.mtx\n"
+      "(blank lines at the end are ignored)"},
+     {"--tol", "X",
+      "threshold tau on the margin t*, a number in (0, 1), relative to the\n"
+      "gradient norms (default: 1e-7, ten times the LP's accuracy)"}},
+    "Checks the Mangasarian-Fromovitz constraint qualification at a point: the equality\n"
+    "gradients (rows of E.mtx) are linearly independent and some direction d has E d = 0\n"
+    "and A d < 0. Decided on unit gradients by the LP max t s.t. A d + t <= 0, E d = 0,\n"
+    "-1 <= d <= 1, t <= 1: MFCQ holds when E has full rank and t* > 0. A holding verdict\n"
+    "comes with the direction, checked directly; a failing one with a certificate: lambda\n"
+    ">= 0 summing to 1 and mu with A^T lambda + E^T mu = 0 (a positive linear dependence).\n"
+    "\n"
+    "The files are Matrix Market (NISTIR 5935), as for 'qualify licq'; '-' reads standard\n"
+    "input (for one of them). Each matrix is held dense.\n",
+    "Output: the full report on stdout (verdict, t*, the direction's margin, the certificate\n"
+    "and the rows it names, the rank of E, LICQ on [A; E] for comparison). With --json, one\n"
+    "JSON object on one line instead, with the keys schema_version, check, verdict,\n"
+    "message, margin, certificate (kind, ineq_rows, eq_rows, lambda, mu, residual),\n"
+    "equality_licq, licq, findings and more.\n"};
+
+int run_mfcq(const invocation& in) {
+  const auto ineq_path = in.value("--ineq");  // required: the parser checked it
+  const auto eq_path = in.value("--eq");
+  const auto labels_path = in.value("--labels");
+  qualify::mfcq_options options;
+  if (const auto tol = in.value("--tol")) {
+    const auto x = qualify_cli::parse_open_unit(*tol);
+    if (!x)
+      return in.usage_error(
+          fmt::format("--tol must be a finite number in (0, 1), got {}", invocation::quote(*tol)));
+    options.relative_threshold = *x;
+  }
+  const int from_stdin = int(*ineq_path == "-") + int(eq_path && *eq_path == "-") +
+                         int(labels_path && *labels_path == "-");
+  if (from_stdin > 1) return in.usage_error("only one input can come from standard input");
+
+  std::vector<std::string> labels;
+  if (labels_path) {
+    auto read = qualify_cli::read_labels(*labels_path);
+    if (!read) return in.fail(read.error());
+    labels = std::move(*read);
+  }
+  auto ineq = qualify_cli::read_dense_jacobian(*ineq_path);
+  if (!ineq) return in.fail(ineq.error());
+  Eigen::MatrixXd eq(0, ineq->cols());
+  if (eq_path) {
+    auto read = qualify_cli::read_dense_jacobian(*eq_path);
+    if (!read) return in.fail(read.error());
+    eq = std::move(*read);
+  }
+  const std::string shown = shown_name(*ineq_path) + (eq_path ? " and " + shown_name(*eq_path) : "");
+  const auto rows = static_cast<std::size_t>(ineq->rows() + eq.rows());
+  if (labels_path && labels.size() != rows)
+    return in.fail(label_count_problem(*labels_path, labels.size(), rows, shown));
+
+  const qualify::mfcq_report report = qualify::check_mfcq(*ineq, eq, options, std::move(labels));
+  if (report.result == qualify::verdict::invalid_input)
+    return in.fail({exit_code::data, shown + ": " + report.message,
+                    eq_path && report.message.find("equality") != std::string::npos ? *eq_path
+                                                                                      : *ineq_path,
+                    std::nullopt});
+  if (in.json())
+    fmt::print("{}\n", qualify::to_json(report));
+  else
+    fmt::print("{:f}", report);
+  return qualify_cli::exit_for(report.result);
+}
+
 // ---- dispatch -------------------------------------------------------------------------------
 
 const qualify_cli::command commands[] = {
     {&licq_spec, run_licq},
+    {&mfcq_spec, run_mfcq},
 };
 
 std::string top_usage() {

@@ -4,6 +4,7 @@
 
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
+#include <qualify/mfcq.hpp>
 #include <qualify/report.hpp>
 
 #include <fmt/format.h>
@@ -75,6 +76,39 @@ inline std::string render(const affine_check_report& r, bool full) {
   return out + render_findings(r.findings);
 }
 
+inline std::string render(const mfcq_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  out += fmt::format("  jacobians    {} active inequalities, {} equalities, {} variables\n",
+                     r.ineq_rows, r.eq_rows, r.cols);
+  if (r.result != verdict::invalid_input && r.result != verdict::not_checked) {
+    out += fmt::format("  threshold    {:.3g} relative ({}), band {:.3g}\n", r.relative_threshold,
+                       r.relative_threshold_requested ? "given" : "automatic", r.undecided_band);
+    out += fmt::format("  lp           t* = {:.3g} ({}, {} iterations)\n", r.margin,
+                       to_string(r.lp), r.lp_iterations);
+    if (r.direction.size() > 0)
+      out += fmt::format("  direction    margin {:.3g} on unit gradients, max (A d)_i {:.3g}, "
+                         "|E d| {:.3g} relative\n",
+                         r.direction_margin, r.max_ineq_derivative, r.equality_residual);
+    if (r.certificate.kind != mfcq_certificate_kind::none) {
+      std::vector<Index> eq_rows;
+      for (Index j : r.certificate.eq_rows) eq_rows.push_back(r.ineq_rows + j);
+      out += fmt::format("  certificate  {}: residual {:.3g}", to_string(r.certificate.kind),
+                         r.certificate.residual);
+      if (r.certificate.kind == mfcq_certificate_kind::positive_dependence)
+        out += fmt::format(", t* <= {:.3g}", r.certificate.margin_bound);
+      out += "\n";
+      out += "  lambda > 0   " + join_rows(r.certificate.ineq_rows, r.names) + "\n";
+      out += "  mu != 0      " + join_rows(eq_rows, r.names) + "\n";
+    }
+    if (r.equality_licq)
+      out += fmt::format("  equalities   rank {} of {} ({})\n", r.equality_licq->rank,
+                         r.eq_rows, to_string(r.equality_licq->result));
+    if (r.licq) out += fmt::format("  licq         {}\n", r.licq->message);
+  }
+  return out + render_findings(r.findings);
+}
+
 inline std::string render(const qualification_report& r, bool full) {
   if (!full) return render(r.licq, false) + "; " + render(r.linear_cq, false);
   return render(r.licq, true) + render(r.linear_cq, true);
@@ -118,5 +152,7 @@ template <>
 struct fmt::formatter<qualify::linear_cq_report> : qualify::detail::report_formatter {};
 template <>
 struct fmt::formatter<qualify::affine_check_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::mfcq_report> : qualify::detail::report_formatter {};
 template <>
 struct fmt::formatter<qualify::qualification_report> : qualify::detail::report_formatter {};

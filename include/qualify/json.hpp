@@ -4,6 +4,7 @@
 
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
+#include <qualify/mfcq.hpp>
 #include <qualify/report.hpp>
 
 #include <cmath>
@@ -219,6 +220,58 @@ inline void write_body(json_writer& w, const affine_check_report& r) {
   write_findings(w, r.findings);
 }
 
+inline void write_vector(json_writer& w, std::string_view k, const Eigen::VectorXd& v) {
+  w.key(k).begin_array();
+  for (Index i = 0; i < v.size(); ++i) w.value(v(i));
+  w.end_array();
+}
+
+inline void write_body(json_writer& w, const mfcq_report& r) {
+  w.field("check", "mfcq")
+      .field("verdict", to_string(r.result))
+      .field("message", r.message)
+      .field("ineq_count", r.ineq_rows)
+      .field("eq_count", r.eq_rows)
+      .field("cols", r.cols)
+      .key("relative_threshold_requested");
+  if (r.relative_threshold_requested)
+    w.value(*r.relative_threshold_requested);
+  else
+    w.value("automatic");
+  w.field("relative_threshold", r.relative_threshold)
+      .field("undecided_band", r.undecided_band)
+      .field("margin", r.margin)
+      .field("deciding_value", r.deciding_value)
+      .field("lp_status", to_string(r.lp))
+      .field("lp_iterations", r.lp_iterations);
+  write_vector(w, "direction", r.direction);
+  w.field("direction_margin", r.direction_margin)
+      .field("max_ineq_derivative", r.max_ineq_derivative)
+      .field("equality_residual", r.equality_residual);
+  if (r.certificate.kind != mfcq_certificate_kind::none) {
+    w.key("certificate").begin_object().field("kind", to_string(r.certificate.kind));
+    write_vector(w, "lambda", r.certificate.lambda);
+    write_vector(w, "mu", r.certificate.mu);
+    w.field("ineq_rows", r.certificate.ineq_rows)
+        .field("eq_rows", r.certificate.eq_rows)
+        .field("residual", r.certificate.residual)
+        .field("margin_bound", r.certificate.margin_bound)
+        .end_object();
+  }
+  if (r.equality_licq) {
+    w.key("equality_licq").begin_object();
+    write_body(w, *r.equality_licq);
+    w.end_object();
+  }
+  if (r.licq) {
+    w.key("licq").begin_object();
+    write_body(w, *r.licq);
+    w.end_object();
+  }
+  w.field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
 template <class Report>
 std::string report_json(const Report& r) {
   json_writer w;
@@ -234,6 +287,7 @@ std::string report_json(const Report& r) {
 inline std::string to_json(const licq_report& r) { return detail::report_json(r); }
 inline std::string to_json(const linear_cq_report& r) { return detail::report_json(r); }
 inline std::string to_json(const affine_check_report& r) { return detail::report_json(r); }
+inline std::string to_json(const mfcq_report& r) { return detail::report_json(r); }
 inline std::string to_json(const qualification_report& r) {
   detail::json_writer w;
   w.begin_object().field("schema_version", json_schema_version).key("licq").begin_object();

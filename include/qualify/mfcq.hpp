@@ -1,0 +1,499 @@
+// qualify: the Mangasarian-Fromovitz constraint qualification (MFCQ) by an LP and its certificates.
+// SPDX-License-Identifier: MIT
+#pragma once
+
+#include <Eigen/Dense>
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <optional>
+#include <qualify/licq.hpp>
+#include <qualify/lp.hpp>
+#include <qualify/report.hpp>
+#include <string>
+#include <vector>
+
+namespace qualify {
+
+/// Settings of `check_mfcq`. Rows are normalised to unit gradients first, so every figure
+/// below is relative to the gradient norms and a constraint multiplied by a positive constant
+/// gives the same verdict.
+struct mfcq_options {
+  /// Threshold tau on the LP value t* = max { t : a_i . d + t <= 0, E d = 0, |d|_inf <= 1 }
+  /// over unit gradients a_i. Automatic (nullopt): 10 * max(lp.gap_tolerance,
+  /// lp.dual_tolerance) = 1e-7 by default, ten times the accuracy the LP is solved to
+  /// (common practice, no source).
+  std::optional<double> relative_threshold;
+  /// Holds needs a direction, checked directly, with max_i a_i . d <= -band * tau; fails needs
+  /// a positive dependence whose residual proves t* <= tau; undecided in between.
+  double undecided_band = 10.0;
+  /// Inequality rows with ||row||_2 <= zero_row_norm are zero gradients (absolute): no
+  /// direction can decrease them, so MFCQ fails by structure.
+  double zero_row_norm = 0.0;
+  /// A multiplier lambda_i < support_threshold * max lambda is set to zero before the
+  /// certificate is polished and checked (an interior point leaves tiny multipliers on rows
+  /// outside the dependence; common practice, no source).
+  double support_threshold = 1e-6;
+  /// Also check LICQ on [A; E] and tie the verdicts together (LICQ holds => MFCQ holds).
+  bool compare_with_licq = true;
+  /// The rank check of E (and of [A; E]) by check_licq.
+  licq_options licq;
+  /// The LP engine's settings.
+  lp_options lp;
+
+  /// Empty when valid, else a message naming the field and the rule it breaks.
+  std::string validate() const {
+    if (relative_threshold &&
+        !(std::isfinite(*relative_threshold) && *relative_threshold > 0 && *relative_threshold < 1))
+      return "mfcq_options.relative_threshold must be finite and in (0, 1)";
+    if (!(std::isfinite(undecided_band) && undecided_band >= 1))
+      return "mfcq_options.undecided_band must be finite and >= 1";
+    if (!(std::isfinite(zero_row_norm) && zero_row_norm >= 0))
+      return "mfcq_options.zero_row_norm must be finite and >= 0";
+    if (!(std::isfinite(support_threshold) && support_threshold >= 0 && support_threshold < 1))
+      return "mfcq_options.support_threshold must be finite and in [0, 1)";
+    if (auto bad = licq.validate(); !bad.empty()) return "mfcq_options." + bad;
+    detail::lp_general empty;
+    if (auto bad = detail::lp_validate(empty, lp); !bad.empty())
+      return "mfcq_options.lp." + bad.substr(bad.find('.') + 1);
+    return {};
+  }
+};
+
+/// Which fact proves that MFCQ fails.
+enum class mfcq_certificate_kind {
+  none,
+  positive_dependence,  ///< lambda >= 0, sum lambda = 1, A^T lambda + E^T mu = 0 (Motzkin)
+  equality_dependence,  ///< lambda = 0, ||mu||_1 = 1, E^T mu = 0: E lacks full row rank
+};
+
+constexpr std::string_view to_string(mfcq_certificate_kind k) noexcept {
+  switch (k) {
+    case mfcq_certificate_kind::positive_dependence:
+      return "positive_dependence";
+    case mfcq_certificate_kind::equality_dependence:
+      return "equality_dependence";
+    case mfcq_certificate_kind::none:
+      break;
+  }
+  return "none";
+}
+
+/// A dependence among the gradients as given: A^T lambda + E^T mu ~ 0 with lambda >= 0.
+struct mfcq_certificate {
+  mfcq_certificate_kind kind = mfcq_certificate_kind::none;
+  Eigen::VectorXd lambda;  ///< one per inequality row, >= 0, summing to 1 (positive_dependence)
+  Eigen::VectorXd mu;      ///< one per equality row
+  std::vector<Index> ineq_rows;  ///< rows of A with lambda_i > 0 (0-based in A)
+  std::vector<Index> eq_rows;    ///< rows of E with mu_j != 0 (0-based in E)
+  /// ||A^T lambda + E^T mu||_2 / (sum lambda_i ||a_i|| + sum |mu_j| ||e_j||), computed on
+  /// the data as given.
+  double residual = std::numeric_limits<double>::infinity();
+  /// ||r||_1 of the same sum on unit gradients with sum lambda = 1: an upper bound on t*,
+  /// since every feasible d gives max_i a_i . d >= lambda^T A d = r . d >= -||r||_1.
+  double margin_bound = std::numeric_limits<double>::infinity();
+};
+
+/// What `check_mfcq` found. Findings number rows 0..m_A-1 for inequalities, then m_A.. for
+/// equalities (the order of `labels`); the certificate numbers each block on its own.
+struct mfcq_report {
+  verdict result = verdict::not_checked;
+  std::string message = "check_mfcq was not called";
+  Index ineq_rows = 0, eq_rows = 0, cols = 0;
+  std::optional<double> relative_threshold_requested;  ///< as given in the options
+  double relative_threshold = 0;                       ///< tau, as used
+  double undecided_band = 0;
+  /// t* of the LP (0 for a zero gradient, 1 when no inequality is active).
+  double margin = 0;
+  /// The figure the verdict rests on: direction_margin when it holds, certificate.margin_bound
+  /// when it fails (a lower, resp. upper, bound on t*).
+  double deciding_value = 0;
+  /// The direction found (||d||_inf = 1, projected on null(E)), and what it does, checked on
+  /// the data: -max_i a_i . d / ||a_i|| (> 0 proves A d < 0), max_i (A d)_i as given, and
+  /// max_j |e_j . d| / ||e_j||. Empty (figures 0) when it decreases not every inequality.
+  Eigen::VectorXd direction;
+  double direction_margin = 0;
+  double max_ineq_derivative = 0;
+  double equality_residual = 0;
+  lp_status lp = lp_status::not_solved;
+  int lp_iterations = 0;
+  mfcq_certificate certificate;              ///< when MFCQ fails (or undecided: the best one found)
+  std::optional<licq_report> equality_licq;  ///< rank of E (E's own row numbers)
+  std::optional<licq_report> licq;           ///< LICQ on [A; E] (combined row numbers)
+  row_names names;                           ///< labels as given, or "ineq i" / "eq j"
+  std::vector<finding> findings;
+};
+
+namespace detail {
+
+inline mfcq_report invalid_mfcq(mfcq_report rep, std::string code, std::string message) {
+  rep.result = verdict::invalid_input;
+  rep.message = "invalid input: " + message;
+  add_finding(rep.findings, severity::error, std::move(code), std::move(message), {}, rep.names);
+  return rep;
+}
+
+/// Polishes lambda (on the support) and mu so that A_S^T lambda + E^T mu is as small as least
+/// squares makes it, keeping sum lambda = 1 by moving within that hyperplane (minimum-norm
+/// correction, so lambda stays near the LP's). Kept only when lambda stays >= 0.
+inline void polish_dependence(const Eigen::MatrixXd& a_support, const Eigen::MatrixXd& e_unit,
+                              Eigen::VectorXd& lambda, Eigen::VectorXd& mu) {
+  const Index s = a_support.rows(), q = e_unit.rows(), n = a_support.cols();
+  Eigen::MatrixXd m(n, s + q);
+  m.leftCols(s) = a_support.transpose();
+  if (q > 0) m.rightCols(q) = e_unit.transpose();
+  Eigen::VectorXd z(s + q);
+  z << lambda, mu;
+  Eigen::MatrixXd p = Eigen::MatrixXd::Identity(s + q, s + q);
+  p.topLeftCorner(s, s).array() -= 1.0 / double(s);
+  const Eigen::MatrixXd mp = m * p;
+  const Eigen::VectorXd r0 = m * z;
+  const Eigen::VectorXd step =
+      p * Eigen::CompleteOrthogonalDecomposition<Eigen::MatrixXd>(mp).solve(-r0);
+  const Eigen::VectorXd polished = z + step;
+  if (!polished.allFinite() || polished.head(s).minCoeff() < 0) return;
+  if ((m * polished).norm() >= r0.norm()) return;
+  lambda = polished.head(s);
+  mu = polished.tail(q);
+}
+
+}  // namespace detail
+
+/// MFCQ at a point from the Jacobian A of the active inequalities g_i(x) <= 0 (rows =
+/// gradients) and the Jacobian E of the equalities (may have 0 rows): holds when E has full
+/// row rank and some d has E d = 0, A d < 0. Decided on unit gradients by the LP
+/// max t s.t. A d + t 1 <= 0, E d = 0, -1 <= d <= 1, t <= 1 (t* > 0 iff such d exists), with
+/// the direction checked directly when it holds and a positive dependence from the LP duals
+/// (Motzkin's theorem of the alternative) when it fails. `labels`: empty, or one per row of
+/// A followed by one per row of E. Decided in double whatever the scalar.
+template <class DerivedA, class DerivedE>
+mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
+                       const Eigen::MatrixBase<DerivedE>& eq_jacobian,
+                       const mfcq_options& options = {}, std::vector<std::string> labels = {}) {
+  detail::check_scalar<DerivedA>();
+  detail::check_scalar<DerivedE>();
+  using Eigen::MatrixXd;
+  using Eigen::VectorXd;
+  mfcq_report rep;
+  const Index ma = ineq_jacobian.rows(), me = eq_jacobian.rows();
+  rep.ineq_rows = ma;
+  rep.eq_rows = me;
+  rep.cols = ma > 0 || me == 0 ? ineq_jacobian.cols() : eq_jacobian.cols();
+  rep.relative_threshold_requested = options.relative_threshold;
+  rep.undecided_band = options.undecided_band;
+  const std::size_t label_count = labels.size();
+  if (labels.empty()) {
+    for (Index i = 0; i < ma; ++i) labels.push_back("ineq " + std::to_string(i));
+    for (Index j = 0; j < me; ++j) labels.push_back("eq " + std::to_string(j));
+  }
+  rep.names = row_names(labels);
+  if (auto bad = options.validate(); !bad.empty())
+    return detail::invalid_mfcq(rep, "bad_option", bad);
+  if (label_count != 0 && label_count != std::size_t(ma + me)) {
+    rep.names = row_names();
+    return detail::invalid_mfcq(rep, "label_count",
+                                std::to_string(label_count) + " labels for " + std::to_string(ma) +
+                                    " inequality and " + std::to_string(me) + " equality rows");
+  }
+  // A block without rows may come with any column count (an empty MatrixXd).
+  const bool a_sized = ma > 0 || ineq_jacobian.cols() > 0;
+  const bool e_sized = me > 0 || eq_jacobian.cols() > 0;
+  if (a_sized && e_sized && ineq_jacobian.cols() != eq_jacobian.cols())
+    return detail::invalid_mfcq(
+        rep, "dimension_mismatch",
+        "the inequality Jacobian has " + std::to_string(ineq_jacobian.cols()) +
+            " columns, the equality Jacobian " + std::to_string(eq_jacobian.cols()));
+  if (ma + me > 0 && rep.cols == 0)
+    return detail::invalid_mfcq(rep, "empty_jacobian", "the Jacobians have no columns (variables)");
+  if (auto bad = detail::non_finite_message(ineq_jacobian, "inequality Jacobian"))
+    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
+  if (auto bad = detail::non_finite_message(eq_jacobian, "equality Jacobian"))
+    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
+
+  const Index n = rep.cols;
+  const double tau = options.relative_threshold.value_or(
+      10 * std::max(options.lp.gap_tolerance, options.lp.dual_tolerance));
+  const double band = options.undecided_band;
+  rep.relative_threshold = tau;
+  const auto& names = rep.names;
+  if (ma + me == 0) {
+    rep.result = verdict::holds;
+    rep.margin = rep.deciding_value = rep.direction_margin = 1;
+    rep.direction = VectorXd::Zero(n);
+    rep.message = "MFCQ holds vacuously: no active inequality and no equality constraint";
+    return rep;
+  }
+
+  const MatrixXd a = ineq_jacobian.template cast<double>();
+  const MatrixXd e =
+      eq_jacobian.rows() > 0 ? MatrixXd(eq_jacobian.template cast<double>()) : MatrixXd(0, n);
+  const std::vector<std::string> eq_labels(labels.begin() + ma, labels.end());
+
+  // Rank of E, with its dependent rows explained by the LICQ analysis.
+  verdict eq_verdict = verdict::holds;
+  std::vector<Index> eq_used;  // equality rows the LP keeps: a basis of their span
+  if (me > 0) {
+    rep.equality_licq = check_licq(e, options.licq, eq_labels);
+    const licq_report& el = *rep.equality_licq;
+    eq_verdict = el.result;
+    if (el.result == verdict::fails) {
+      eq_used = el.independent_rows;
+    } else {
+      for (Index j = 0; j < me; ++j)
+        if (e.row(j).norm() > 0) eq_used.push_back(j);
+    }
+    for (const auto& f : el.findings) {
+      std::vector<Index> rows;
+      for (Index r : f.rows) rows.push_back(ma + r);
+      add_finding(rep.findings, f.level, f.code, "among the equalities: " + f.message, rows, names);
+    }
+    if (el.result == verdict::fails)
+      add_finding(rep.findings, severity::error, "equality_rank_deficient",
+                  "the equality gradients are linearly dependent (rank " + std::to_string(el.rank) +
+                      " of " + std::to_string(me) + "): no multiplier set can be bounded",
+                  {}, names);
+  }
+  if (options.compare_with_licq) {
+    MatrixXd stacked(ma + me, n);
+    stacked << a, e;
+    rep.licq = check_licq(stacked, options.licq, labels);
+  }
+
+  VectorXd a_norm(ma), e_norm(me);
+  for (Index i = 0; i < ma; ++i) a_norm(i) = a.row(i).stableNorm();
+  for (Index j = 0; j < me; ++j) e_norm(j) = e.row(j).stableNorm();
+  std::vector<Index> zero_rows;
+  for (Index i = 0; i < ma; ++i)
+    if (a_norm(i) <= options.zero_row_norm) zero_rows.push_back(i);
+  const Index q = Index(eq_used.size());
+  MatrixXd e_unit(q, n);
+  for (Index k = 0; k < q; ++k) e_unit.row(k) = e.row(eq_used[k]) / e_norm(eq_used[k]);
+
+  // The direction part: does some d with E d = 0 decrease every active inequality?
+  verdict dir_verdict = verdict::undecided;
+  mfcq_certificate& cert = rep.certificate;
+  VectorXd lambda_unit, mu_unit;  // on the unit rows (mu on eq_used)
+  if (!zero_rows.empty()) {
+    dir_verdict = verdict::fails;  // 0 . d + t <= 0 forces t* = 0
+    rep.margin = 0;
+    lambda_unit = VectorXd::Zero(ma);
+    for (Index i : zero_rows) lambda_unit(i) = 1.0 / double(zero_rows.size());
+    mu_unit = VectorXd::Zero(q);
+    add_finding(rep.findings, severity::error, "zero_gradient",
+                "active inequality with a zero gradient: no direction decreases it", zero_rows,
+                names);
+  } else if (ma == 0) {
+    dir_verdict = verdict::holds;  // d = 0 meets E d = 0 and there is nothing to decrease
+    rep.margin = rep.direction_margin = 1;
+    rep.direction = VectorXd::Zero(n);
+    rep.max_ineq_derivative = -std::numeric_limits<double>::infinity();
+  } else {
+    MatrixXd a_unit(ma, n);
+    for (Index i = 0; i < ma; ++i) a_unit.row(i) = a.row(i) / a_norm(i);
+    MatrixXd lp_a = MatrixXd::Zero(ma + q, n + 1);
+    lp_a.topLeftCorner(ma, n) = a_unit;
+    lp_a.topRightCorner(ma, 1).setOnes();
+    lp_a.bottomLeftCorner(q, n) = e_unit;
+    const double inf = std::numeric_limits<double>::infinity();
+    VectorXd row_lower = VectorXd::Constant(ma + q, -inf), row_upper = VectorXd::Zero(ma + q);
+    row_lower.tail(q).setZero();
+    VectorXd c = VectorXd::Zero(n + 1), col_lower = VectorXd::Constant(n + 1, -1.0),
+             col_upper = VectorXd::Ones(n + 1);
+    c(n) = -1;
+    col_lower(n) = -inf;
+    const lp_result lp = solve_lp(lp_a, c, row_lower, row_upper, col_lower, col_upper, options.lp);
+    rep.lp = lp.status;
+    rep.lp_iterations = lp.iterations;
+    if (lp.status != lp_status::optimal) {
+      add_finding(rep.findings, severity::warning, "lp_not_solved",
+                  "the MFCQ LP ended " + std::string(to_string(lp.status)) + ": " + lp.message, {},
+                  names);
+    }
+    if (lp.x.size() == n + 1 && lp.row_duals.size() == ma + q) {
+      rep.margin = lp.x(n);
+      // The direction, projected on null(E) and scaled to ||d||_inf = 1, checked directly.
+      VectorXd d = lp.x.head(n);
+      if (q > 0) {
+        Eigen::HouseholderQR<MatrixXd> qr(e_unit.transpose());
+        d -= e_unit.transpose() * VectorXd(qr.solve(d));
+      }
+      const double dn = d.lpNorm<Eigen::Infinity>();
+      if (dn > 0 && std::isfinite(dn)) d /= dn;
+      rep.direction = d;
+      rep.direction_margin = -(a_unit * d).maxCoeff();
+      rep.max_ineq_derivative = (a * d).maxCoeff();
+      rep.equality_residual = 0;
+      for (Index j = 0; j < me; ++j)
+        if (e_norm(j) > 0)
+          rep.equality_residual =
+              std::max(rep.equality_residual, std::abs(e.row(j).dot(d)) / e_norm(j));
+      if (rep.direction_margin >= band * tau && rep.equality_residual <= tau && dn > 0)
+        dir_verdict = verdict::holds;
+      if (!(rep.direction_margin > 0)) {  // decreases nothing for sure: not worth showing
+        rep.direction.resize(0);
+        rep.direction_margin = rep.max_ineq_derivative = rep.equality_residual = 0;
+      }
+      // Duals: c = A^T y + z; inequality rows sit at their upper bound, so y <= 0 there.
+      lambda_unit = (-lp.row_duals.head(ma)).cwiseMax(0.0);
+      mu_unit = -lp.row_duals.tail(q);
+    }
+    if (dir_verdict != verdict::holds && lambda_unit.size() == ma && lambda_unit.sum() > 0) {
+      const double total = lambda_unit.sum();
+      lambda_unit /= total;
+      mu_unit /= total;
+      const double cut = options.support_threshold * lambda_unit.maxCoeff();
+      std::vector<Index> support;
+      for (Index i = 0; i < ma; ++i)
+        if (lambda_unit(i) >= cut && lambda_unit(i) > 0) support.push_back(i);
+      VectorXd lam_s = lambda_unit(support);
+      lam_s /= lam_s.sum();
+      MatrixXd a_s = a_unit(support, Eigen::all);
+      detail::polish_dependence(a_s, e_unit, lam_s, mu_unit);
+      lambda_unit.setZero();
+      lambda_unit(support) = lam_s;
+      const VectorXd r = a_unit.transpose() * lambda_unit + e_unit.transpose() * mu_unit;
+      cert.margin_bound = r.lpNorm<1>();
+      if (cert.margin_bound <= tau) dir_verdict = verdict::fails;
+    }
+  }
+
+  // The certificate on the gradients as given.
+  // A proven failure is shown first: an undecided LP dependence yields to a rank failure of E.
+  if (lambda_unit.size() == ma && dir_verdict != verdict::holds && lambda_unit.sum() > 0 &&
+      (dir_verdict == verdict::fails || eq_verdict != verdict::fails)) {
+    cert.kind = mfcq_certificate_kind::positive_dependence;
+    cert.lambda = VectorXd::Zero(ma);
+    cert.mu = VectorXd::Zero(me);
+    for (Index i = 0; i < ma; ++i)
+      if (lambda_unit(i) > 0)
+        cert.lambda(i) = a_norm(i) > 0 ? lambda_unit(i) / a_norm(i) : lambda_unit(i);
+    for (Index k = 0; k < q; ++k) cert.mu(eq_used[k]) = mu_unit(k) / e_norm(eq_used[k]);
+    if (!zero_rows.empty()) cert.margin_bound = 0;
+  } else if (eq_verdict == verdict::fails) {
+    // E^T mu = 0 from the first dependent equality: e_row = sum coefficient * e_term.
+    const auto& dep = rep.equality_licq->dependencies.front();
+    cert.kind = mfcq_certificate_kind::equality_dependence;
+    cert.lambda = VectorXd::Zero(ma);
+    cert.mu = VectorXd::Zero(me);
+    cert.mu(dep.row) = 1;
+    for (const auto& t : dep.terms) cert.mu(t.row) = -t.coefficient;
+  }
+  if (cert.kind != mfcq_certificate_kind::none) {
+    const double total = cert.kind == mfcq_certificate_kind::positive_dependence
+                             ? cert.lambda.sum()
+                             : cert.mu.lpNorm<1>();
+    cert.lambda /= total;
+    cert.mu /= total;
+    for (Index i = 0; i < ma; ++i)
+      if (cert.lambda(i) > 0) cert.ineq_rows.push_back(i);
+    for (Index j = 0; j < me; ++j)
+      if (cert.mu(j) != 0) cert.eq_rows.push_back(j);
+    const VectorXd r = a.transpose() * cert.lambda + e.transpose() * cert.mu;
+    const double size = a_norm.dot(cert.lambda) + e_norm.dot(cert.mu.cwiseAbs());
+    cert.residual = size > 0 ? r.stableNorm() / size : 0.0;
+  }
+
+  // The verdict: either part failing suffices; holding needs both.
+  if (eq_verdict == verdict::fails || dir_verdict == verdict::fails)
+    rep.result = verdict::fails;
+  else if (eq_verdict == verdict::holds && dir_verdict == verdict::holds)
+    rep.result = verdict::holds;
+  else
+    rep.result = verdict::undecided;
+  rep.deciding_value = dir_verdict == verdict::holds   ? rep.direction_margin
+                       : dir_verdict == verdict::fails ? cert.margin_bound
+                                                       : rep.margin;
+
+  // Findings and the message.
+  const auto fig = detail::format_figure;
+  const std::string figures = " (t* = " + fig(rep.margin) + ", threshold " + fig(tau) + ")";
+  if (cert.kind == mfcq_certificate_kind::positive_dependence) {
+    std::string text;
+    std::vector<Index> rows;
+    constexpr std::size_t shown_terms = 8;  // the certificate keeps them all
+    for (Index i : cert.ineq_rows) {
+      rows.push_back(i);
+      if (rows.size() <= shown_terms)
+        text += (text.empty() ? "" : " + ") + fig(cert.lambda(i)) + "*" + names(i);
+    }
+    for (Index j : cert.eq_rows) {
+      rows.push_back(ma + j);
+      if (rows.size() <= shown_terms)
+        text += std::string(cert.mu(j) < 0 ? " - " : " + ") + fig(std::abs(cert.mu(j))) + "*" +
+                names(ma + j);
+    }
+    if (rows.size() > shown_terms)
+      text += " + " + std::to_string(rows.size() - shown_terms) + " more terms";
+    add_finding(rep.findings, dir_verdict == verdict::fails ? severity::error : severity::warning,
+                "positive_dependence",
+                "gradients " + text + " = 0 (relative residual " + fig(cert.residual) +
+                    ", so t* <= " + fig(cert.margin_bound) +
+                    "): no direction decreases these inequalities while keeping the equalities",
+                rows, names);
+  }
+  const bool licq_holds = rep.licq && rep.licq->result == verdict::holds;
+  const bool licq_fails = rep.licq && rep.licq->result == verdict::fails;
+  if (rep.result == verdict::holds && licq_fails)
+    add_finding(rep.findings, severity::info, "mfcq_without_licq",
+                "MFCQ holds although LICQ fails: at a local minimiser KKT multipliers exist and "
+                "form a bounded set (Gauvin, Math. Programming 12, 1977), but they need not be "
+                "unique (unique exactly under the strict MFCQ: Kyparisis, Math. Programming 32, "
+                "1985)",
+                rep.licq->dependent_rows(), names);
+  if (rep.result == verdict::fails && licq_holds)
+    add_finding(rep.findings, severity::warning, "inconsistent_with_licq",
+                "LICQ holds, which implies MFCQ: the two numerical decisions disagree", {}, names);
+
+  const std::string counted =
+      "decreases all " + std::to_string(ma) + " active inequalit" + (ma == 1 ? "y" : "ies") +
+      (me > 0 ? " and keeps the " + std::to_string(me) + " equalit" + (me == 1 ? "y" : "ies")
+              : std::string());
+  switch (rep.result) {
+    case verdict::holds:
+      if (ma == 0) {
+        rep.message = "MFCQ holds: no inequality is active and the " + std::to_string(me) +
+                      " equality gradients are linearly independent";
+        break;
+      }
+      rep.message = "MFCQ holds: a direction " + counted + " (verified margin " +
+                    fig(rep.direction_margin) + ", t* = " + fig(rep.margin) + ", threshold " +
+                    fig(tau) + ")";
+      if (licq_holds) rep.message += "; LICQ holds too, so multipliers are unique";
+      if (licq_fails) rep.message += "; LICQ fails: multipliers are bounded but need not be unique";
+      break;
+    case verdict::fails:
+      if (dir_verdict == verdict::fails && !zero_rows.empty())
+        rep.message = "MFCQ fails: an active inequality has a zero gradient";
+      else if (dir_verdict == verdict::fails)
+        rep.message = "MFCQ fails: the active gradients are positively dependent on " +
+                      std::to_string(cert.ineq_rows.size()) + " inequalit" +
+                      (cert.ineq_rows.size() == 1 ? "y" : "ies") + figures;
+      else
+        rep.message = "MFCQ fails: the equality gradients are linearly dependent (rank " +
+                      std::to_string(rep.equality_licq->rank) + " of " + std::to_string(me) + ")";
+      if (dir_verdict == verdict::fails && eq_verdict == verdict::fails)
+        rep.message += "; the equality gradients are linearly dependent too";
+      break;
+    default:
+      rep.message = "MFCQ undecided: ";
+      if (eq_verdict == verdict::undecided)
+        rep.message += "the rank of the equality gradients is undecided";
+      else if (rep.lp != lp_status::optimal)
+        rep.message += "the LP ended " + std::string(to_string(rep.lp));
+      else
+        rep.message +=
+            "the margin lies between the threshold and " + fig(band) + " x the threshold" + figures;
+  }
+  return rep;
+}
+
+/// MFCQ with inequalities only (no equality constraint).
+template <class DerivedA>
+mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
+                       const mfcq_options& options = {}, std::vector<std::string> labels = {}) {
+  using Scalar = typename DerivedA::Scalar;
+  const Eigen::Matrix<Scalar, Eigen::Dynamic, Eigen::Dynamic> none(0, ineq_jacobian.cols());
+  return check_mfcq(ineq_jacobian, none, options, std::move(labels));
+}
+
+}  // namespace qualify

@@ -1,0 +1,379 @@
+// qualify tests: MFCQ verdicts, margins and certificates against GLPK and published examples.
+// SPDX-License-Identifier: MIT
+#include <doctest/doctest.h>
+#include <glpk.h>
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <qualify/doctest.hpp>
+#include <qualify/json.hpp>
+#include <qualify/mfcq.hpp>
+#include <random>
+
+#include "reference.hpp"
+
+using namespace qualify;
+using Eigen::MatrixXd;
+using Eigen::VectorXd;
+using qualify_test::gaussian;
+using qualify_test::normalise_rows;
+
+namespace {
+
+bool has_code(const mfcq_report& r, const std::string& code) {
+  return std::any_of(r.findings.begin(), r.findings.end(),
+                     [&](const finding& f) { return f.code == code; });
+}
+
+/// t* of max t s.t. A_unit d + t 1 <= 0, E_unit d = 0, -1 <= d <= 1, t <= 1 (DESIGN.md,
+/// section 2) by GLPK's simplex (Debian's libglpk), an independent LP code.
+double glpk_margin(const MatrixXd& a, const MatrixXd& e) {
+  const MatrixXd au = normalise_rows(a), eu = normalise_rows(e);
+  const int ma = int(a.rows()), me = int(e.rows()), n = int(a.cols());
+  glp_prob* lp = glp_create_prob();
+  glp_set_obj_dir(lp, GLP_MAX);
+  glp_add_rows(lp, ma + me);
+  glp_add_cols(lp, n + 1);
+  for (int i = 0; i < ma; ++i) glp_set_row_bnds(lp, i + 1, GLP_UP, 0, 0);
+  for (int j = 0; j < me; ++j) glp_set_row_bnds(lp, ma + j + 1, GLP_FX, 0, 0);
+  for (int k = 0; k < n; ++k) glp_set_col_bnds(lp, k + 1, GLP_DB, -1, 1);
+  glp_set_col_bnds(lp, n + 1, GLP_UP, 0, 1);
+  glp_set_obj_coef(lp, n + 1, 1);
+  std::vector<int> ia{0}, ja{0};
+  std::vector<double> ar{0};
+  const auto put = [&](int row, int col, double v) {
+    if (v == 0) return;
+    ia.push_back(row);
+    ja.push_back(col);
+    ar.push_back(v);
+  };
+  for (int i = 0; i < ma; ++i) {
+    for (int k = 0; k < n; ++k) put(i + 1, k + 1, au(i, k));
+    put(i + 1, n + 1, 1);
+  }
+  for (int j = 0; j < me; ++j)
+    for (int k = 0; k < n; ++k) put(ma + j + 1, k + 1, eu(j, k));
+  glp_load_matrix(lp, int(ar.size()) - 1, ia.data(), ja.data(), ar.data());
+  glp_smcp parm;
+  glp_init_smcp(&parm);
+  parm.msg_lev = GLP_MSG_OFF;
+  glp_simplex(lp, &parm);
+  const double t = glp_get_status(lp) == GLP_OPT ? glp_get_obj_val(lp)
+                                                 : std::numeric_limits<double>::quiet_NaN();
+  glp_delete_prob(lp);
+  return t;
+}
+
+/// What a report claims, checked on the data here: a holding verdict's direction decreases
+/// every inequality and keeps the equalities; a certificate is a positive dependence.
+void check_claims(const mfcq_report& r, const MatrixXd& a, const MatrixXd& e) {
+  if (r.result == verdict::holds && a.rows() > 0) {
+    REQUIRE(r.direction.size() == a.cols());
+    CHECK((a * r.direction).maxCoeff() < 0);
+    CHECK(r.direction.lpNorm<Eigen::Infinity>() == doctest::Approx(1.0));
+    if (e.rows() > 0) CHECK((normalise_rows(e) * r.direction).lpNorm<Eigen::Infinity>() <= 1e-12);
+  }
+  if (r.certificate.kind == mfcq_certificate_kind::positive_dependence) {
+    const auto& c = r.certificate;
+    CHECK(c.lambda.minCoeff() >= 0);
+    CHECK(c.lambda.sum() == doctest::Approx(1.0));
+    const VectorXd sum = a.transpose() * c.lambda + e.transpose() * c.mu;
+    double size = 0;
+    for (Index i = 0; i < a.rows(); ++i) size += c.lambda(i) * a.row(i).norm();
+    for (Index j = 0; j < e.rows(); ++j) size += std::abs(c.mu(j)) * e.row(j).norm();
+    CHECK(sum.norm() <= 1e-9 * size);
+    // Zero gradients depend on nothing: residual 0 by definition.
+    CHECK(std::abs((size > 0 ? sum.norm() / size : 0.0) - c.residual) <= 1e-12);
+    for (Index i : c.ineq_rows) CHECK(c.lambda(i) > 0);
+  }
+}
+
+}  // namespace
+
+TEST_CASE("complementarity constraints violate MFCQ at every feasible point") {
+  // Scheel and Scholtes, "Mathematical programs with complementarity constraints: stationarity,
+  // optimality, and sensitivity", Math. Oper. Res. 25 (2000): x1 >= 0, x2 >= 0, x1 x2 <= 0,
+  // written -x1 <= 0, -x2 <= 0, x1 x2 <= 0 with gradients (-1, 0), (0, -1), (x2, x1).
+  SUBCASE("at (0, 0) all three are active and x1 x2 has a zero gradient") {
+    MatrixXd a(3, 2);
+    a << -1, 0, 0, -1, 0, 0;
+    const auto rep = check_mfcq(a, {}, {"x1_nonneg", "x2_nonneg", "product"});
+    QUALIFY_CHECK_FAILS(rep);
+    CHECK(has_code(rep, "zero_gradient"));
+    CHECK(rep.certificate.ineq_rows == std::vector<Index>{2});
+    CHECK(rep.margin == 0);
+    check_claims(rep, a, MatrixXd(0, 2));
+  }
+  SUBCASE("at (1, 0): -x2 <= 0 and x1 x2 <= 0 are active, gradients (0, -1) and (0, 1)") {
+    MatrixXd a(2, 2);
+    a << 0, -1, 0, 1;
+    const auto rep = check_mfcq(a);
+    QUALIFY_CHECK_FAILS(rep);
+    CHECK(rep.certificate.kind == mfcq_certificate_kind::positive_dependence);
+    CHECK(rep.certificate.ineq_rows == std::vector<Index>{0, 1});
+    CHECK(std::abs(rep.margin) <= 1e-7);  // hand-checked: d2 <= -t and -d2 <= -t force t <= 0
+    check_claims(rep, a, MatrixXd(0, 2));
+  }
+}
+
+TEST_CASE("the Kuhn-Tucker cusp: MFCQ fails with lambda = (1/2, 1/2)") {
+  // Kuhn and Tucker, "Nonlinear programming", Proc. 2nd Berkeley Symposium (1951): min -x1
+  // s.t. x2 - (1 - x1)^3 <= 0, -x2 <= 0; at x* = (1, 0) the gradients are (0, 1), (0, -1),
+  // and (0,1)/2 + (0,-1)/2 = 0 is the only normalised positive dependence (hand-checked).
+  MatrixXd a(2, 2);
+  a << 0, 1, 0, -1;
+  const auto rep = check_mfcq(a, {}, {"cusp", "floor"});
+  QUALIFY_CHECK_FAILS(rep);
+  REQUIRE(rep.certificate.lambda.size() == 2);
+  CHECK(rep.certificate.lambda(0) == doctest::Approx(0.5).epsilon(1e-9));
+  CHECK(rep.certificate.lambda(1) == doctest::Approx(0.5).epsilon(1e-9));
+  CHECK(rep.certificate.residual <= 1e-12);
+  CHECK(rep.message.find("positively dependent on 2 inequalities") != std::string::npos);
+  const auto it = std::find_if(rep.findings.begin(), rep.findings.end(),
+                               [](const finding& f) { return f.code == "positive_dependence"; });
+  REQUIRE(it != rep.findings.end());
+  CHECK(it->labels == std::vector<std::string>{"cusp", "floor"});
+  check_claims(rep, a, MatrixXd(0, 2));
+  // LICQ fails here too (opposed rows): the finding of the combined check says so.
+  REQUIRE(rep.licq);
+  CHECK(rep.licq->result == verdict::fails);
+}
+
+TEST_CASE("three lines through a point: LICQ fails, MFCQ holds, and the report explains it") {
+  // -x1 <= 0, -x2 <= 0, -x1 - x2 <= 0 at 0: three gradients in the plane are dependent, but
+  // d = (1, 1) decreases all three (hand-checked: slopes -1, -1, -2), so t* = 1 (the cap).
+  MatrixXd a(3, 2);
+  a << -1, 0, 0, -1, -1, -1;
+  const auto rep = check_mfcq(a);
+  QUALIFY_CHECK_HOLDS(rep);
+  CHECK(rep.margin == doctest::Approx(1.0).epsilon(1e-7));
+  CHECK(rep.margin == doctest::Approx(glpk_margin(a, MatrixXd(0, 2))).epsilon(1e-7));  // GLPK
+  REQUIRE(rep.licq);
+  CHECK(rep.licq->result == verdict::fails);
+  CHECK(has_code(rep, "mfcq_without_licq"));
+  CHECK(rep.message.find("LICQ fails: multipliers are bounded but need not be unique") !=
+        std::string::npos);
+  check_claims(rep, a, MatrixXd(0, 2));
+}
+
+TEST_CASE("a duplicated equality gradient is a rank failure, explained by check_licq") {
+  // Hand-checkable: e_1 = e_0, so mu = (1/2, -1/2) gives E^T mu = 0.
+  MatrixXd a(1, 3), e(2, 3);
+  a << 1, 0, 0;
+  e << 0, 1, 1, 0, 1, 1;
+  const auto rep = check_mfcq(a, e, {}, {"g", "h", "h_again"});
+  QUALIFY_CHECK_FAILS(rep);
+  CHECK(has_code(rep, "equality_rank_deficient"));
+  CHECK(has_code(rep, "duplicate_rows"));
+  REQUIRE(rep.equality_licq);
+  CHECK(rep.equality_licq->rank == 1);
+  CHECK(rep.certificate.kind == mfcq_certificate_kind::equality_dependence);
+  CHECK(rep.certificate.eq_rows == std::vector<Index>{0, 1});
+  CHECK(rep.certificate.residual <= 1e-15);
+  CHECK(std::abs(rep.certificate.mu(0) + rep.certificate.mu(1)) <= 1e-15);
+  CHECK(rep.message.find("equality gradients are linearly dependent") != std::string::npos);
+  // The direction part still holds: d = (-1, 0, 0) keeps both equalities.
+  CHECK(rep.margin == doctest::Approx(glpk_margin(a, e)).epsilon(1e-7));
+}
+
+TEST_CASE("equalities written as two opposed inequalities fail MFCQ") {
+  // A classic modelling slip (common practice, no source): h(x) = 0 as h <= 0 and -h <= 0.
+  std::mt19937 rng(3);
+  MatrixXd a = gaussian(4, 6, rng);
+  a.row(3) = -a.row(1);
+  const auto rep = check_mfcq(a);
+  QUALIFY_CHECK_FAILS(rep);
+  CHECK(rep.certificate.ineq_rows == std::vector<Index>{1, 3});
+  check_claims(rep, a, MatrixXd(0, 6));
+}
+
+TEST_CASE("t* agrees with GLPK's simplex on seeded random cases; LICQ holds implies MFCQ holds") {
+  std::mt19937 rng(20261202);
+  std::uniform_int_distribution<int> pick(0, 3);
+  int held = 0, failed = 0, licq_held = 0;
+  for (int trial = 0; trial < 60; ++trial) {
+    const Index n = 3 + trial % 9;
+    const Index me = trial % 3 == 0 ? 0 : std::min<Index>(n - 1, 1 + trial % 3);
+    const Index ma = 1 + pick(rng) + (trial % 4 == 0 ? 2 * n : 0);  // some with ma > n
+    MatrixXd a = gaussian(ma, n, rng);
+    const MatrixXd e = gaussian(me, n, rng);
+    if (trial % 5 == 1 && ma >= 2) {
+      // Built to be positively dependent: the last row is -(positive mix of the others),
+      // plus an equality term, so that 0 = sum lambda_i a_i + E^T mu with lambda > 0.
+      VectorXd w = VectorXd::NullaryExpr(ma - 1, [&] { return 0.5 + double(pick(rng)); });
+      Eigen::RowVectorXd last = -(w.transpose() * a.topRows(ma - 1));
+      if (me > 0) last += gaussian(1, me, rng) * e;
+      a.row(ma - 1) = last;
+    }
+    if (trial % 7 == 3) a.row(0) *= 1e6;  // scaling a constraint changes nothing
+    const auto rep = check_mfcq(a, e);
+    CAPTURE(trial);
+    CAPTURE(fmt::format("{:f}", rep));
+    const double ref = glpk_margin(a, e);
+    REQUIRE(std::isfinite(ref));
+    CHECK(std::abs(rep.margin - ref) <= 1e-7);  // GLPK simplex on the same LP
+    CHECK(rep.result != verdict::undecided);
+    CHECK(rep.result == (ref > 1e-6 ? verdict::holds : verdict::fails));
+    check_claims(rep, a, e);
+    if (rep.licq && rep.licq->result == verdict::holds) {
+      ++licq_held;
+      QUALIFY_CHECK_HOLDS(rep);  // LICQ implies MFCQ (Mangasarian and Fromovitz, 1967)
+    }
+    held += rep.result == verdict::holds;
+    failed += rep.result == verdict::fails;
+  }
+  // The generator must exercise both outcomes and the LICQ tie, or the comparison says little.
+  CHECK(held > 10);
+  CHECK(failed > 10);
+  CHECK(licq_held > 5);
+}
+
+TEST_CASE("verdicts and t* do not change when a row is scaled by 1e-8 or 1e8") {
+  std::mt19937 rng(5);
+  MatrixXd a = gaussian(5, 4, rng);
+  const auto base = check_mfcq(a);
+  for (double s : {1e-8, 1e8}) {
+    MatrixXd scaled = a;
+    scaled.row(2) *= s;
+    const auto rep = check_mfcq(scaled);
+    QUALIFY_CHECK_VERDICT(rep, base.result);
+    CHECK(rep.margin == doctest::Approx(base.margin).epsilon(1e-7));
+  }
+}
+
+TEST_CASE("a margin inside the band is undecided, above it holds, below it fails") {
+  // Rows (1, 0) and (-1, -s): nearly opposed, so t* is small, about s / 2 (hand-checked:
+  // d = (-t, 1) gives t <= s / (1 + sqrt(1 + s^2))); its value is taken from GLPK.
+  MatrixXd a(2, 2);
+  const double s = 1e-5;
+  a << 1, 0, -1, -s;
+  const double ref = glpk_margin(a, MatrixXd(0, 2));  // GLPK simplex
+  REQUIRE(ref > 0);
+  mfcq_options options;
+  options.relative_threshold = ref / 3;  // (tau, 10 tau) is the undecided zone
+  auto rep = check_mfcq(a, options);
+  QUALIFY_CHECK_VERDICT(rep, verdict::undecided);
+  CHECK(rep.margin == doctest::Approx(ref).epsilon(1e-6));
+  options.relative_threshold = ref / 20;
+  QUALIFY_CHECK_HOLDS(check_mfcq(a, options));
+  options.relative_threshold = ref * 3;  // the dual bound equals t* <= tau: proven to fail
+  rep = check_mfcq(a, options);
+  QUALIFY_CHECK_FAILS(rep);
+  CHECK(rep.certificate.margin_bound >= ref * (1 - 1e-6));  // a valid upper bound on t*
+}
+
+TEST_CASE("no rows at all: MFCQ holds vacuously; equalities alone need full rank") {
+  const auto none = check_mfcq(MatrixXd(0, 3), MatrixXd(0, 3));
+  QUALIFY_CHECK_HOLDS(none);
+  CHECK(none.message.find("vacuously") != std::string::npos);
+  CHECK(check_mfcq(MatrixXd(0, 0)).result == verdict::holds);
+
+  MatrixXd e(2, 3);
+  e << 1, 0, 0, 0, 1, 0;
+  const auto eq_only = check_mfcq(MatrixXd(0, 3), e);
+  QUALIFY_CHECK_HOLDS(eq_only);
+  MatrixXd e_bad(2, 3);
+  e_bad << 1, 0, 0, 2, 0, 0;
+  QUALIFY_CHECK_FAILS(check_mfcq(MatrixXd(0, 3), e_bad));
+}
+
+TEST_CASE("bad input is an invalid_input report naming the problem") {
+  MatrixXd a = MatrixXd::Identity(2, 3);
+  a(1, 2) = std::numeric_limits<double>::quiet_NaN();
+  auto rep = check_mfcq(a);
+  QUALIFY_CHECK_VERDICT(rep, verdict::invalid_input);
+  CHECK(rep.message.find("inequality Jacobian entry (1, 2) is NaN") != std::string::npos);
+  MatrixXd e = MatrixXd::Identity(1, 3);
+  e(0, 0) = std::numeric_limits<double>::infinity();
+  rep = check_mfcq(MatrixXd::Identity(2, 3), e);
+  CHECK(rep.message.find("equality Jacobian entry (0, 0) is +Inf") != std::string::npos);
+
+  rep = check_mfcq(MatrixXd::Identity(2, 3), MatrixXd::Identity(2, 4));
+  CHECK(rep.findings.at(0).code == "dimension_mismatch");
+  CHECK(rep.message.find("3 columns, the equality Jacobian 4") != std::string::npos);
+  rep = check_mfcq(MatrixXd::Identity(2, 3), MatrixXd::Identity(1, 3), {}, {"a", "b"});
+  CHECK(rep.findings.at(0).code == "label_count");
+  CHECK(rep.message.find("2 labels for 2 inequality and 1 equality rows") != std::string::npos);
+  CHECK(check_mfcq(MatrixXd(2, 0)).findings.at(0).code == "empty_jacobian");
+
+  for (double bad : {-1.0, 0.0, 1.0, std::numeric_limits<double>::quiet_NaN()}) {
+    mfcq_options options;
+    options.relative_threshold = bad;
+    CHECK(check_mfcq(MatrixXd::Identity(2, 2), options).findings.at(0).code == "bad_option");
+  }
+  mfcq_options band;
+  band.undecided_band = 0.5;
+  CHECK(check_mfcq(MatrixXd::Identity(2, 2), band).message.find("undecided_band") !=
+        std::string::npos);
+  mfcq_options lp;
+  lp.lp.gap_tolerance = -1;
+  CHECK(check_mfcq(MatrixXd::Identity(2, 2), lp).message.find("mfcq_options.lp.gap_tolerance") !=
+        std::string::npos);
+  mfcq_options licq;
+  licq.licq.undecided_band = 0;
+  CHECK(check_mfcq(MatrixXd::Identity(2, 2), licq).message.find("mfcq_options.licq_options") !=
+        std::string::npos);
+
+  const mfcq_report untouched;
+  CHECK(untouched.result == verdict::not_checked);
+  CHECK(untouched.message == "check_mfcq was not called");
+}
+
+TEST_CASE_TEMPLATE("float and long double inputs give the double verdicts", Scalar, float,
+                   long double) {
+  using M = Eigen::Matrix<Scalar, Eigen::Dynamic, Eigen::Dynamic>;
+  MatrixXd a(3, 2);
+  a << -1, 0, 0, -1, -1, -1;
+  QUALIFY_CHECK_HOLDS(check_mfcq(M(a.cast<Scalar>())));
+  MatrixXd cusp(2, 2);
+  cusp << 0, 1, 0, -1;
+  QUALIFY_CHECK_FAILS(check_mfcq(M(cusp.cast<Scalar>())));
+}
+
+TEST_CASE("report output: brief, full and JSON forms") {
+  MatrixXd a(2, 2);
+  a << 0, 1, 0, -1;
+  const auto rep = check_mfcq(a, {}, {"cusp", "floor"});
+  const std::string brief = fmt::format("{}", rep);
+  CHECK(brief.find("MFCQ fails") == 0);
+  CHECK(brief.find('\n') == std::string::npos);
+  const std::string full = fmt::format("{:f}", rep);
+  CHECK(full.find("certificate  positive_dependence") != std::string::npos);
+  CHECK(full.find("lambda > 0   cusp, floor") != std::string::npos);
+  const std::string json = to_json(rep);
+  CHECK(json.find("\"check\":\"mfcq\"") != std::string::npos);
+  CHECK(json.find("\"verdict\":\"fails\"") != std::string::npos);
+  CHECK(json.find("\"ineq_rows\":[0,1]") != std::string::npos);
+  CHECK(json.find("\"eq_rows\":[]") != std::string::npos);
+}
+
+TEST_CASE("larger cases: 300 active rows, 20 equalities, 150 variables agree with GLPK") {
+  // Sizes of the dense MFCQ LP of tests/lp_test.cpp; one case holds (a cone with interior,
+  // built around a direction d0), one fails (a row added as minus a positive mix of others).
+  std::mt19937 rng(29);
+  const Index ma = 300, me = 20, n = 150;
+  const MatrixXd e = gaussian(me, n, rng);
+  MatrixXd a = gaussian(ma, n, rng);
+  // Keep a d0 in null(E) with a_i . d0 < 0 for every row: flip the rows that increase along d0.
+  VectorXd d0 = VectorXd::NullaryExpr(n, [&] { return std::normal_distribution<double>()(rng); });
+  d0 -= e.transpose() * (e * e.transpose()).ldlt().solve(e * d0);
+  for (Index i = 0; i < ma; ++i)
+    if (a.row(i).dot(d0) > 0) a.row(i) *= -1;
+  SUBCASE("holds") {
+    const auto rep = check_mfcq(a, e);
+    QUALIFY_CHECK_HOLDS(rep);
+    CHECK(std::abs(rep.margin - glpk_margin(a, e)) <= 1e-7);  // GLPK simplex
+    check_claims(rep, a, e);
+  }
+  SUBCASE("fails") {
+    a.row(ma - 1) = -(a.row(3) + 2 * a.row(70) + 0.5 * a.row(200)) + gaussian(1, me, rng) * e;
+    const auto rep = check_mfcq(a, e);
+    QUALIFY_CHECK_FAILS(rep);
+    CHECK(std::abs(rep.margin - glpk_margin(a, e)) <= 1e-7);  // GLPK simplex
+    check_claims(rep, a, e);
+    for (Index i : {Index(3), Index(70), Index(200), ma - 1})
+      CHECK(std::find(rep.certificate.ineq_rows.begin(), rep.certificate.ineq_rows.end(), i) !=
+            rep.certificate.ineq_rows.end());
+  }
+}
