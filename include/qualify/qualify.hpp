@@ -10,3 +10,4 @@
 #include <qualify/matrix_market.hpp>
 #include <qualify/mps.hpp>
 #include <qualify/lp.hpp>
+#include <qualify/slater.hpp>
