@@ -173,6 +173,64 @@ glpk_sides glpk_implicit(const affine_model& p) {
   return out;
 }
 
+// The margin by its definition, max over x of min_k rho_k(x) capped to [-1, 1], solved by
+// GLPK's simplex method: one row per inequality side, rho_k(x) >= t written as
+// a_i x - (||a_i||_2 + |l_i|) t >= l_i (lower) or a_i x + (||a_i||_2 + |u_i|) t <= u_i (upper),
+// and x_j - (1 + |l_j|) t >= l_j, x_j + (1 + |u_j|) t <= u_j for unfixed column bounds.
+double glpk_margin(const affine_model& p) {
+  glp_prob* lp = glp_create_prob();
+  const int n = static_cast<int>(p.A.cols());
+  glp_add_cols(lp, n + 1);
+  std::vector<int> ia{0}, ja{0};
+  std::vector<double> ar{0};
+  auto add_side = [&](const Eigen::VectorXd& a, double bound, bool lower, double weight) {
+    const int r = glp_add_rows(lp, 1);
+    glp_set_row_bnds(lp, r, lower ? GLP_LO : GLP_UP, bound, bound);
+    for (int j = 0; j < n; ++j)
+      if (a[j] != 0) ia.push_back(r), ja.push_back(j + 1), ar.push_back(a[j]);
+    ia.push_back(r), ja.push_back(n + 1), ar.push_back(lower ? -weight : weight);
+  };
+  double cap = 1;  // rows without entries: rho is the constant 0 (bound 0) or +-1
+  for (Index i = 0; i < p.A.rows(); ++i) {
+    const Eigen::VectorXd a = p.A.row(i).transpose();
+    if (a.norm() == 0 && p.rl[i] != p.ru[i]) {
+      for (double slack : {-p.rl[i], p.ru[i]})
+        if (std::isfinite(slack)) cap = std::min(cap, slack > 0 ? 1.0 : slack < 0 ? -1.0 : 0.0);
+      continue;
+    }
+    if (p.rl[i] == p.ru[i]) {  // an equality stays one
+      const int r = glp_add_rows(lp, 1);
+      glp_set_row_bnds(lp, r, GLP_FX, p.rl[i], p.rl[i]);
+      for (int j = 0; j < n; ++j)
+        if (a[j] != 0) ia.push_back(r), ja.push_back(j + 1), ar.push_back(a[j]);
+      continue;
+    }
+    if (std::isfinite(p.rl[i])) add_side(a, p.rl[i], true, a.norm() + std::abs(p.rl[i]));
+    if (std::isfinite(p.ru[i])) add_side(a, p.ru[i], false, a.norm() + std::abs(p.ru[i]));
+  }
+  for (int j = 0; j < n; ++j) {
+    if (p.cl[j] == p.cu[j]) {
+      glp_set_col_bnds(lp, j + 1, GLP_FX, p.cl[j], p.cl[j]);
+      continue;
+    }
+    glp_set_col_bnds(lp, j + 1, GLP_FR, 0, 0);
+    const Eigen::VectorXd e = Eigen::VectorXd::Unit(n, j);
+    if (std::isfinite(p.cl[j])) add_side(e, p.cl[j], true, 1 + std::abs(p.cl[j]));
+    if (std::isfinite(p.cu[j])) add_side(e, p.cu[j], false, 1 + std::abs(p.cu[j]));
+  }
+  glp_set_col_bnds(lp, n + 1, GLP_DB, -1, 1);
+  glp_set_obj_coef(lp, n + 1, 1);
+  glp_set_obj_dir(lp, GLP_MAX);
+  glp_load_matrix(lp, static_cast<int>(ar.size()) - 1, ia.data(), ja.data(), ar.data());
+  glp_smcp parm;
+  glp_init_smcp(&parm);
+  parm.msg_lev = GLP_MSG_OFF;
+  glp_simplex(lp, &parm);
+  const double t = glp_get_status(lp) == GLP_OPT ? std::min(cap, glp_get_obj_val(lp)) : std::nan("");
+  glp_delete_prob(lp);
+  return t;
+}
+
 std::set<Index> as_set(const std::vector<Index>& v) { return {v.begin(), v.end()}; }
 
 // A seeded random system around a point x0 that meets every bound, with planted implicit
@@ -361,6 +419,19 @@ TEST_CASE("a system with a strict interior gives a verified strictly feasible po
   CHECK(r.lp_solves.size() == 1);  // the margin LP alone decides
   CHECK(qualify::to_json(r).find("\"strict_interior\":true") != std::string::npos);
 
+  SUBCASE("hand-checkable margin: 0 <= x <= 1 as column bounds") {
+    // rho = x / 1 and (1 - x) / 2 are equal at x = 1/3: the margin is 1/3.
+    affine_model q;
+    q.A = Eigen::MatrixXd::Zero(0, 1);
+    q.rl = q.ru = Eigen::VectorXd(0);
+    q.cl = Eigen::VectorXd::Zero(1);
+    q.cu = Eigen::VectorXd::Ones(1);
+    const auto s = check(q);
+    CHECK(s.result == qualify::verdict::holds);
+    CHECK(s.margin == doctest::Approx(1.0 / 3).epsilon(1e-7));
+    CHECK(std::abs(glpk_margin(q) - 1.0 / 3) <= 1e-12);
+    CHECK(strictly_feasible(q, s.strict_point));
+  }
   SUBCASE("equalities only: the strict interior holds vacuously") {
     affine_model q;
     q.A = Eigen::RowVector2d(1, 1);
@@ -419,6 +490,7 @@ TEST_CASE("seeded random systems: implicit equalities and feasibility agree with
     CHECK(r.result == (ref.implicit_rows.empty() && ref.implicit_cols.empty()
                            ? qualify::verdict::holds
                            : qualify::verdict::fails));
+    if (std::isfinite(r.margin)) CHECK(std::abs(r.margin - glpk_margin(p)) <= 1e-6);
     planted += static_cast<int>(ref.implicit_rows.size());
     compared_sides += static_cast<int>(r.inequality_sides);
   }
@@ -454,6 +526,11 @@ TEST_CASE("Netlib: implicit equalities agree with GLPK's per-row answer") {
     CHECK(r.undecided_rows.empty());
     CHECK(r.undecided_columns.empty());
     if (r.strict_interior) CHECK(strictly_feasible(p, r.strict_point));
+    // The margin LP's value against GLPK's, to the LP engine's tolerances (1e-8 relative on
+    // the scaled problem; 1e-6 leaves room for the unscaling).
+    const double ref_margin = glpk_margin(p);
+    CHECK(std::abs(r.margin - ref_margin) <= 1e-6);
+    MESSAGE("GLPK margin ", ref_margin);
     MESSAGE(std::string(file), ": ", to_string(r.result), ", ", r.implicit_equality_rows().size(),
             " implicit-equality rows (GLPK ", ref.implicit_rows.size(), "), ",
             r.implicit_fixed_column_indices().size(), " implicit fixed columns (GLPK ",
