@@ -36,7 +36,7 @@ qualify::affine_slater_report check(const affine_model& p,
 
 // Independent check of a Farkas vector: with z = A^T y, the infimum of y^T r over the row
 // bounds exceeds the supremum of z^T x over the column bounds (entries of z below
-// 1e-7 ||y|| (1 + ||A||) count as zero: the documented feasibility_tolerance, a relative
+// 1e-7 ||y|| (1 + ||A||) count as zero: the documented certificate_tolerance, a relative
 // perturbation of A), so no x meets both.
 bool farkas_proves_infeasible(const affine_model& p, const Eigen::VectorXd& y) {
   if (y.size() != p.A.rows()) return false;
@@ -56,13 +56,14 @@ bool farkas_proves_infeasible(const affine_model& p, const Eigen::VectorXd& y) {
 }
 
 // Independent check of a strict point: every inequality row side and every finite bound of
-// an unfixed column holds strictly, equalities to 1e-7 relative (the documented tolerance).
+// an unfixed column holds strictly, equalities to 1e-6 relative (the documented tolerance).
 bool strictly_feasible(const affine_model& p, const Eigen::VectorXd& x) {
   if (x.size() != p.A.cols()) return false;
   const Eigen::VectorXd ax = p.A * x;
   for (Index i = 0; i < ax.size(); ++i) {
     if (p.rl[i] == p.ru[i]) {
-      if (std::abs(ax[i] - p.rl[i]) > 1e-7 * (1 + std::abs(p.rl[i]) + p.A.row(i).cwiseAbs().dot(x.cwiseAbs())))
+      if (std::abs(ax[i] - p.rl[i]) >
+          1e-6 * (1 + std::abs(p.rl[i]) + p.A.row(i).cwiseAbs().dot(x.cwiseAbs())))
         return false;
       continue;
     }
@@ -71,7 +72,7 @@ bool strictly_feasible(const affine_model& p, const Eigen::VectorXd& x) {
   }
   for (Index j = 0; j < x.size(); ++j) {
     if (p.cl[j] == p.cu[j]) {
-      if (x[j] != p.cl[j] && std::abs(x[j] - p.cl[j]) > 1e-7 * (1 + std::abs(p.cl[j])))
+      if (x[j] != p.cl[j] && std::abs(x[j] - p.cl[j]) > 1e-6 * (1 + std::abs(p.cl[j])))
         return false;
       continue;
     }
@@ -444,7 +445,7 @@ TEST_CASE("a system with a strict interior gives a verified strictly feasible po
     CHECK(strictly_feasible(q, s.strict_point));
   }
   SUBCASE("a thin slab within the tolerance band is undecided") {
-    // 0 <= x <= 2e-7 (as a range row): the largest minimum relative slack is about 1e-7,
+    // 0 <= x <= 4e-7 (as a range row): the largest minimum relative slack is about 2e-7,
     // between tau = 1e-7 and band * tau = 1e-6.
     affine_model q;
     q.A = Eigen::MatrixXd::Ones(1, 1);
@@ -604,6 +605,7 @@ TEST_CASE("bad input is an invalid_input report naming the problem") {
   bad_option([](auto& o) { o.undecided_band = 0.5; }, "undecided_band");
   bad_option([](auto& o) { o.undecided_band = 1e8; }, "undecided_band");
   bad_option([](auto& o) { o.feasibility_tolerance = -1; }, "feasibility_tolerance");
+  bad_option([](auto& o) { o.certificate_tolerance = 2; }, "certificate_tolerance");
   bad_option([](auto& o) { o.max_rounds = 0; }, "max_rounds");
   bad_option([](auto& o) { o.lp.primal_tolerance = 0; }, "primal_tolerance");
   // Labels of the wrong length.

@@ -56,11 +56,18 @@ struct affine_slater_options {
   double undecided_band = 10.0;
   /// A point is accepted as feasible when every row and column bound is met to within
   /// feasibility_tolerance * (||a_i||_2 + |a_i|^T |x| + |b_i|) (columns: * (1 + |x_j| +
-  /// |b_j|)): the size of the terms summed, since the LP's point is exact only to rounding
-  /// and its tolerances. A Farkas certificate y is accepted when, with entries of A^T y below
-  /// feasibility_tolerance * ||y||_inf * ||a_j||_inf * sqrt(m + 1) taken as zero, its relative
-  /// margin (see lp_result::certificate_margin) exceeds feasibility_tolerance.
-  double feasibility_tolerance = 1e-7;
+  /// |b_j|)): the size of the terms summed. Default 1e-6: the LP engine stops at a residual
+  /// of 1e-8 * (1 + ||b||_inf) on the scaled problem, which is larger per row (measured on
+  /// Netlib's stair: 5.2e-7 on one row at the margin LP's optimum).
+  double feasibility_tolerance = 1e-6;
+  /// A Farkas certificate y is accepted when, with entries of A^T y below
+  /// certificate_tolerance * ||y||_inf * ||a_j||_inf * sqrt(m + 1) taken as zero (a relative
+  /// perturbation of A), its relative margin (see lp_result::certificate_margin) exceeds
+  /// certificate_tolerance. Default 1e-7: interior-point multipliers are exact only to the
+  /// LP's 1e-8 tolerances, and a margin-LP certificate is also confirmed by the feasibility
+  /// LP finding no point (a system without a strict interior is arbitrarily close to
+  /// infeasible ones).
+  double certificate_tolerance = 1e-7;
   /// Largest number of LPs in the implicit-equality sequence. nullopt: the number of
   /// inequality sides + 1, always enough since each round settles at least one side.
   std::optional<int> max_rounds;
@@ -79,6 +86,8 @@ struct affine_slater_options {
              "capped at 1)";
     if (!unit(feasibility_tolerance))
       return "affine_slater_options.feasibility_tolerance must be in (0, 1)";
+    if (!unit(certificate_tolerance))
+      return "affine_slater_options.certificate_tolerance must be in (0, 1)";
     if (max_rounds && *max_rounds < 1) return "affine_slater_options.max_rounds must be >= 1";
     const std::string lp_problem = detail::lp_validate(detail::lp_general{}, lp);
     if (!lp_problem.empty()) return "affine_slater_options.lp: " + lp_problem;
@@ -432,6 +441,23 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     rep.lp_solves.push_back({std::move(purpose), r.status, r.iterations, value});
     rep.lp_iterations += r.iterations;
   };
+  // The feasibility and sequence LPs have no strict interior themselves when implicit
+  // equalities exist, which is hard on an interior-point method: on failure, retry with
+  // 1000 times the regularisation, then also without scaling (common practice, no source).
+  // Failed attempts stay in lp_solves.
+  auto solve_retrying = [&](const char* purpose, const lp_general& g) {
+    lp_result r = slater_solve(g, o.lp);
+    for (int retry = 0; retry < 2 && r.status != lp_status::optimal &&
+                        r.status != lp_status::infeasible && r.status != lp_status::invalid_input;
+         ++retry) {
+      record(purpose, r, std::numeric_limits<double>::quiet_NaN());
+      lp_options again = o.lp;
+      again.regularization = std::max(1e-9, o.lp.regularization * 1000);
+      if (retry == 1) again.scaling_passes = 0;
+      r = slater_solve(g, again);
+    }
+    return r;
+  };
   auto side_name = [&](const slater_side& s) {
     return (s.column ? rep.column_name(s.index) : rep.names(s.index)) +
            (s.side == bound_side::lower ? " >= " : " <= ") + format_figure(s.bound);
@@ -454,10 +480,8 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
   original.col_upper = p.cu;
   original.c = Eigen::VectorXd::Zero(n);
   // A Farkas vector y on the rows, accepted only when it checks on the original data (the
-  // check of lp_result::farkas, with entries of A^T y below feasibility_tolerance * ||y|| *
-  // ||a_j|| counted as zero and margin > feasibility_tolerance: the same relative slack as
-  // points get, since LP multipliers are exact only to the LP's tolerances).
-  const double cert_tol = std::max(o.feasibility_tolerance, o.lp.certificate_tolerance);
+  // check of lp_result::farkas at options.certificate_tolerance).
+  const double cert_tol = o.certificate_tolerance;
   auto certify_infeasible = [&](const Eigen::VectorXd& y) {
     if (y.size() != m || !y.allFinite() || y.lpNorm<Eigen::Infinity>() == 0) return false;
     for (double sign : {1.0, -1.0}) {
@@ -496,6 +520,7 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     return false;
   };
   std::optional<affine_slater_report> margin_candidate;  // an infeasibility claim to confirm
+  Eigen::VectorXd margin_point;  // the margin LP's x when it meets the feasibility test
   if (K > 0 && !(zero_row_rho < 0)) {
     std::vector<Index> var_of(std::size_t(K), 0), origin;
     const lp_result r = slater_solve(slater_build(p, var_of, 1, -1.0, 1.0, &origin), o.lp);
@@ -526,6 +551,7 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
       rep.margin = std::min(t, zero_row_rho);
       const Eigen::VectorXd x = r.x.head(n);
       const auto check = slater_check_point(p, x);
+      if (check.violation <= o.feasibility_tolerance) margin_point = x;
       if (check.min_rho >= strict && check.violation <= o.feasibility_tolerance) {
         rep.result = rep.refined_slater = verdict::holds;
         rep.feasible = feasibility::feasible;
@@ -539,13 +565,29 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
                       "); no implicit equalities";
         return rep;
       }
+      if (check.violation > o.feasibility_tolerance)
+        add_finding(rep.findings, severity::info, "point_not_verified",
+                    "the margin LP's point has smallest relative slack " +
+                        format_figure(check.min_rho) + " and largest relative violation " +
+                        format_figure(check.violation) + " (feasibility_tolerance " +
+                        format_figure(o.feasibility_tolerance) + "): not accepted",
+                    {}, rep.names);
     }
   }
 
-  // 2. Feasibility of the system as given (the Farkas certificate, when there is none).
-  {
-    const lp_result r =
-        solve_lp(p.A, Eigen::VectorXd::Zero(n), p.rl, p.ru, p.cl, p.cu, o.lp);
+  // 2. Feasibility of the system as given (the Farkas certificate, when there is none). The
+  // margin LP's point serves when it meets the feasibility test (a point that checks beats
+  // a certificate that needs a tolerance).
+  if (margin_point.size() == n && n > 0 && K > 0) {
+    rep.feasible = feasibility::feasible;
+    rep.refined_slater = verdict::holds;
+    if (margin_candidate)
+      add_finding(rep.findings, severity::info, "lp_disagreement",
+                  "the margin LP's multipliers suggested infeasibility, but its point checks "
+                  "on the data; the point is believed",
+                  {}, rep.names);
+  } else {
+    const lp_result r = solve_retrying("feasibility", original);
     record("feasibility", r, 0.0);
     if (r.status == lp_status::infeasible && certify_infeasible(r.farkas)) return rep;
     const bool ok = r.status == lp_status::optimal &&
@@ -604,7 +646,8 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     for (Index k = 0; k < K; ++k)
       if (open[std::size_t(k)]) var_of[std::size_t(k)] = count++;
     if (count == 0) break;
-    const lp_result r = slater_solve(slater_build(p, var_of, count, 0.0, 1.0), o.lp);
+    const lp_general g = slater_build(p, var_of, count, 0.0, 1.0);
+    const lp_result r = solve_retrying("implicit_equalities", g);
     const double value = r.status == lp_status::optimal ? -(r.objective) : std::numeric_limits<double>::quiet_NaN();
     record("implicit_equalities", r, value);
     if (r.status != lp_status::optimal) {
