@@ -2,15 +2,14 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
-#include <qualify/lp.hpp>
-#include <qualify/report.hpp>
-
 #include <Eigen/Core>
 #include <Eigen/SparseCore>
 #include <algorithm>
 #include <cmath>
 #include <limits>
 #include <optional>
+#include <qualify/lp.hpp>
+#include <qualify/report.hpp>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -22,10 +21,14 @@ enum class feasibility { not_checked, feasible, infeasible, undecided };
 
 constexpr std::string_view to_string(feasibility f) noexcept {
   switch (f) {
-    case feasibility::feasible: return "feasible";
-    case feasibility::infeasible: return "infeasible";
-    case feasibility::undecided: return "undecided";
-    case feasibility::not_checked: break;
+    case feasibility::feasible:
+      return "feasible";
+    case feasibility::infeasible:
+      return "infeasible";
+    case feasibility::undecided:
+      return "undecided";
+    case feasibility::not_checked:
+      break;
   }
   return "not_checked";
 }
@@ -155,8 +158,7 @@ struct affine_slater_report {
   /// The verdict as JSON and the command line print it: "infeasible" when there is no
   /// feasible point, else to_string(result).
   std::string_view verdict_name() const noexcept {
-    return feasible == feasibility::infeasible ? std::string_view("infeasible")
-                                               : to_string(result);
+    return feasible == feasibility::infeasible ? std::string_view("infeasible") : to_string(result);
   }
   std::string column_name(Index j) const {
     const auto& l = column_names.labels();
@@ -189,7 +191,7 @@ struct slater_side {
 };
 
 struct slater_system {
-  lp_sparse A;                                       // column-major
+  lp_sparse A;                                               // column-major
   Eigen::SparseMatrix<double, Eigen::RowMajor, Index> rows;  // the same, by row
   Eigen::VectorXd rl, ru, cl, cu;
   Eigen::VectorXd row_norm;  // ||a_i||_2
@@ -248,7 +250,8 @@ inline detail::lp_general slater_build(const slater_system& p, const std::vector
   std::vector<double> lo, up;
   auto add_row = [&](Index i, double l, double u, Index var, double coef) {
     const Index r = static_cast<Index>(lo.size());
-    for (decltype(p.rows)::InnerIterator it(p.rows, i); it; ++it) t.emplace_back(r, it.col(), it.value());
+    for (decltype(p.rows)::InnerIterator it(p.rows, i); it; ++it)
+      t.emplace_back(r, it.col(), it.value());
     if (var >= 0) t.emplace_back(r, n + var, coef);
     if (origin) origin->push_back(i);
     lo.push_back(l);
@@ -345,12 +348,14 @@ inline std::string slater_validate(const lp_sparse& A, const Eigen::VectorXd& rl
     for (Index i = 0; i < e.v->size(); ++i)
       if (std::isnan((*e.v)[i]) || (*e.v)[i] == e.bad)
         return std::string(e.name) + "[" + std::to_string(i) + "] is " +
-               (std::isnan((*e.v)[i]) ? "NaN" : e.bad > 0 ? "+inf" : "-inf");
+               (std::isnan((*e.v)[i]) ? "NaN"
+                : e.bad > 0           ? "+inf"
+                                      : "-inf");
   code = "crossed_bounds";
   for (Index i = 0; i < m; ++i)
     if (rl[i] > ru[i])
-      return "row " + std::to_string(i) + ": row_lower " + format_figure(rl[i]) +
-             " > row_upper " + format_figure(ru[i]);
+      return "row " + std::to_string(i) + ": row_lower " + format_figure(rl[i]) + " > row_upper " +
+             format_figure(ru[i]);
   for (Index j = 0; j < n; ++j)
     if (cl[j] > cu[j])
       return "column " + std::to_string(j) + ": col_lower " + format_figure(cl[j]) +
@@ -376,13 +381,13 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
   rep.feasibility_tolerance = o.feasibility_tolerance;
   if (auto bad = o.validate(); !bad.empty()) return slater_invalid(rep, "bad_option", bad);
   if (row_label_count != 0 && row_label_count != static_cast<std::size_t>(m))
-    return slater_invalid(rep, "label_count",
-                          std::to_string(row_label_count) + " row labels for " +
-                              std::to_string(m) + " rows");
+    return slater_invalid(
+        rep, "label_count",
+        std::to_string(row_label_count) + " row labels for " + std::to_string(m) + " rows");
   if (col_label_count != 0 && col_label_count != static_cast<std::size_t>(n))
-    return slater_invalid(rep, "label_count",
-                          std::to_string(col_label_count) + " column labels for " +
-                              std::to_string(n) + " columns");
+    return slater_invalid(
+        rep, "label_count",
+        std::to_string(col_label_count) + " column labels for " + std::to_string(n) + " columns");
   std::string code;
   if (auto bad = slater_validate(A, rl, ru, cl, cu, code); !bad.empty())
     return slater_invalid(rep, code, bad);
@@ -468,10 +473,10 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
   double zero_row_rho = std::numeric_limits<double>::infinity();
   for (const auto& s : p.sides)
     if (!s.column && p.row_norm[s.index] == 0)
-      zero_row_rho = std::min(zero_row_rho, (s.side == bound_side::lower ? -s.bound : s.bound) < 0
-                                                ? -1.0
-                                            : s.bound == 0 ? 0.0
-                                                           : 1.0);
+      zero_row_rho =
+          std::min(zero_row_rho, (s.side == bound_side::lower ? -s.bound : s.bound) < 0 ? -1.0
+                                 : s.bound == 0                                         ? 0.0
+                                                                                        : 1.0);
   lp_general original;
   original.A = p.A;
   original.row_lower = p.rl;
@@ -608,8 +613,7 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
       rep.message = "undecided: the feasibility LP ended " + std::string(to_string(r.status)) +
                     " (" + r.message + ")";
       add_finding(rep.findings, severity::warning, "lp_not_solved",
-                  "the feasibility LP ended " + std::string(to_string(r.status)) + ": " +
-                      r.message,
+                  "the feasibility LP ended " + std::string(to_string(r.status)) + ": " + r.message,
                   {}, rep.names);
       return rep;
     }
@@ -630,7 +634,8 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
   // 3. Implicit equalities: maximise sum s_k, 0 <= s_k <= 1, rho_k(x) >= s_k over the open
   // sides; sides a verified point makes strict are settled, the rest go round again until
   // the optimum is <= tau (they are implicit equalities) or nothing is left.
-  std::vector<char> open(std::size_t(K), 1), undecided(std::size_t(K), 0), implicit(std::size_t(K), 0);
+  std::vector<char> open(std::size_t(K), 1), undecided(std::size_t(K), 0),
+      implicit(std::size_t(K), 0);
   for (Index k = 0; k < K; ++k) {  // zero rows: rho is a constant
     const auto& s = p.sides[std::size_t(k)];
     if (s.column || p.row_norm[s.index] != 0) continue;
@@ -648,7 +653,8 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     if (count == 0) break;
     const lp_general g = slater_build(p, var_of, count, 0.0, 1.0);
     const lp_result r = solve_retrying("implicit_equalities", g);
-    const double value = r.status == lp_status::optimal ? -(r.objective) : std::numeric_limits<double>::quiet_NaN();
+    const double value =
+        r.status == lp_status::optimal ? -(r.objective) : std::numeric_limits<double>::quiet_NaN();
     record("implicit_equalities", r, value);
     if (r.status != lp_status::optimal) {
       lp_trouble = true;
@@ -720,20 +726,21 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     rep.result = verdict::fails;
     rep.message = "no strict interior: " + std::to_string(rep.implicit_equalities.size()) +
                   " inequality row side" + (rep.implicit_equalities.size() == 1 ? "" : "s") +
-                  " and " + std::to_string(rep.implicit_fixed_columns.size()) +
-                  " column bound" + (rep.implicit_fixed_columns.size() == 1 ? "" : "s") +
+                  " and " + std::to_string(rep.implicit_fixed_columns.size()) + " column bound" +
+                  (rep.implicit_fixed_columns.size() == 1 ? "" : "s") +
                   " hold with equality on the whole feasible set (margin " + margin_text +
                   "); the model is feasible, so the refined Slater condition holds";
   } else {
     rep.result = verdict::undecided;
-    rep.message = lp_trouble || !rep.undecided_rows.empty() || !rep.undecided_columns.empty()
-                      ? "undecided: " +
-                            std::to_string(rep.undecided_rows.size() + rep.undecided_columns.size()) +
-                            " inequality sides could be neither shown strict nor shown tight "
-                            "(margin " + margin_text + ")"
-                      : "undecided: no implicit equality, but the margin " + margin_text +
-                            " is below " + format_figure(strict) +
-                            " (within the tolerance band)";
+    rep.message =
+        lp_trouble || !rep.undecided_rows.empty() || !rep.undecided_columns.empty()
+            ? "undecided: " +
+                  std::to_string(rep.undecided_rows.size() + rep.undecided_columns.size()) +
+                  " inequality sides could be neither shown strict nor shown tight "
+                  "(margin " +
+                  margin_text + ")"
+            : "undecided: no implicit equality, but the margin " + margin_text + " is below " +
+                  format_figure(strict) + " (within the tolerance band)";
   }
   return rep;
 }
@@ -749,14 +756,11 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
 /// sequence of LPs). Rows with row_lower == row_upper are equalities; bounds may be +-inf.
 /// Labels name rows and columns in findings. Never throws for conditions of the data.
 template <class Derived>
-affine_slater_report check_affine_slater(const Eigen::MatrixBase<Derived>& A,
-                                         const Eigen::VectorXd& row_lower,
-                                         const Eigen::VectorXd& row_upper,
-                                         const Eigen::VectorXd& col_lower,
-                                         const Eigen::VectorXd& col_upper,
-                                         const affine_slater_options& options = {},
-                                         std::vector<std::string> row_labels = {},
-                                         std::vector<std::string> col_labels = {}) {
+affine_slater_report check_affine_slater(
+    const Eigen::MatrixBase<Derived>& A, const Eigen::VectorXd& row_lower,
+    const Eigen::VectorXd& row_upper, const Eigen::VectorXd& col_lower,
+    const Eigen::VectorXd& col_upper, const affine_slater_options& options = {},
+    std::vector<std::string> row_labels = {}, std::vector<std::string> col_labels = {}) {
   for (Index j = 0; j < A.cols(); ++j)
     for (Index i = 0; i < A.rows(); ++i)
       if (!std::isfinite(static_cast<double>(A(i, j)))) {
@@ -775,14 +779,11 @@ affine_slater_report check_affine_slater(const Eigen::MatrixBase<Derived>& A,
 
 /// The same with A sparse.
 template <class Derived>
-affine_slater_report check_affine_slater(const Eigen::SparseMatrixBase<Derived>& A,
-                                         const Eigen::VectorXd& row_lower,
-                                         const Eigen::VectorXd& row_upper,
-                                         const Eigen::VectorXd& col_lower,
-                                         const Eigen::VectorXd& col_upper,
-                                         const affine_slater_options& options = {},
-                                         std::vector<std::string> row_labels = {},
-                                         std::vector<std::string> col_labels = {}) {
+affine_slater_report check_affine_slater(
+    const Eigen::SparseMatrixBase<Derived>& A, const Eigen::VectorXd& row_lower,
+    const Eigen::VectorXd& row_upper, const Eigen::VectorXd& col_lower,
+    const Eigen::VectorXd& col_upper, const affine_slater_options& options = {},
+    std::vector<std::string> row_labels = {}, std::vector<std::string> col_labels = {}) {
   detail::lp_sparse S = A.derived().template cast<double>();
   return detail::affine_slater_run(std::move(S), row_lower, row_upper, col_lower, col_upper,
                                    options, std::move(row_labels), std::move(col_labels));
