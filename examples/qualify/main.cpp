@@ -151,7 +151,7 @@ const qualify_cli::command_spec slater_spec{
     "does the constraint set of an LP model (MPS) have a strict interior (Slater)?",
     {"MODEL.mps"},
     {{"--tol", "X",
-      "relative slack tolerance tau, a number in (0, 1): an inequality is\n"
+      "relative slack tolerance tau, a number in (0, 0.1): an inequality is\n"
       "an implicit equality when no feasible point gives it a relative slack\n"
       "above tau, strict when one gives it 10 tau (default 1e-7)"}},
     "Checks the constraints of the LP in MODEL.mps (the objective is ignored): is there a\n"
