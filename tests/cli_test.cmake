@@ -1,7 +1,7 @@
 # qualify: tests of the qualify command on files this script writes (verdicts, JSON, labels, errors).
 # SPDX-License-Identifier: MIT
 #
-# cmake -DQUALIFY=<the qualify binary> -DGROUP=<verdicts|json|labels|errors|usage|mfcq>
+# cmake -DQUALIFY=<the qualify binary> -DGROUP=<verdicts|json|labels|errors|usage|mfcq|lp|slater>
 #       -DWORK_DIR=<scratch folder> -DVERSION=<project version> [-DJQ=<jq>] -P cli_test.cmake
 # Every check runs the binary and compares its exit status exactly, so a crash (a signal name
 # instead of a number) fails. JSON is parsed with string(JSON) and, when jq is found, also by
@@ -583,6 +583,232 @@ elseif(GROUP STREQUAL "mfcq")
   expect_in(out "Usage: qualify mfcq --ineq A.mtx [--eq E.mtx] [--labels FILE] [--tol X] [--json]")
   run(--help)
   expect_in(out "mfcq")
+elseif(GROUP STREQUAL "lp" OR GROUP STREQUAL "slater")
+  # Hand-checkable MPS models (free format). opposed: x1 + x2 <= 1 and x1 + x2 >= 1 with
+  # x >= 0, min x1 + 2 x2 + 5 (the RHS entry -5 on the objective row is the constant -(-5)):
+  # optimum at (1, 0), objective 6; CAP and FLOOR are implicit equalities, no column pinned.
+  write(opposed.mps "NAME          OPPOSED
+ROWS
+ N  COST
+ L  CAP
+ G  FLOOR
+COLUMNS
+    X1        COST      1.0   CAP       1.0
+    X1        FLOOR     1.0
+    X2        COST      2.0   CAP       1.0
+    X2        FLOOR     1.0
+RHS
+    RHS       CAP       1.0   FLOOR     1.0
+    RHS       COST      -5.0
+ENDATA
+")
+  # interior: x1 + x2 <= 4, x >= 0, min -x1 - x2: objective -4; (1, 1) is strictly inside.
+  write(interior.mps "NAME INTERIOR
+ROWS
+ N COST
+ L LIM
+COLUMNS
+ X1 COST -1 LIM 1
+ X2 COST -1 LIM 1
+RHS
+ RHS LIM 4
+ENDATA
+")
+  # infeasible: x <= 0 and x >= 1 as rows, x free.
+  write(infeasible.mps "NAME INFEASIBLE
+ROWS
+ N COST
+ L ATMOST0
+ G ATLEAST1
+COLUMNS
+ X COST 1 ATMOST0 1
+ X ATLEAST1 1
+RHS
+ RHS ATLEAST1 1
+BOUNDS
+ FR BND X
+ENDATA
+")
+  # infeasible2: x1 + x2 <= 1 and x1 + x2 >= 2, x free (no singleton row for presolve).
+  write(infeasible2.mps "NAME INFEASIBLE2
+ROWS
+ N COST
+ L UPTO1
+ G FROM2
+COLUMNS
+ X1 COST 1 UPTO1 1
+ X1 FROM2 1
+ X2 COST 1 UPTO1 1
+ X2 FROM2 1
+RHS
+ RHS UPTO1 1 FROM2 2
+BOUNDS
+ FR BND X1
+ FR BND X2
+ENDATA
+")
+  # unbounded: min -x s.t. x - y <= 1, x, y >= 0 (the ray (1, 1)).
+  write(unbounded.mps "NAME UNBOUNDED
+ROWS
+ N COST
+ L R1
+COLUMNS
+ X COST -1 R1 1
+ Y R1 -1
+RHS
+ RHS R1 1
+ENDATA
+")
+  # pinned: x1 + x2 <= 0 with x >= 0 leaves only x = 0: TOTAL is an implicit equality and
+  # the lower bounds of X1 and X2 pin both columns.
+  write(pinned.mps "NAME PINNED
+ROWS
+ N COST
+ L TOTAL
+COLUMNS
+ X1 COST 1 TOTAL 1
+ X2 COST 1 TOTAL 1
+ENDATA
+")
+  write(garbled.mps "NAME GARBLED
+ROWS
+ N COST
+ L LIM
+COLUMNS
+ X1 COST 1 LIM 1x
+ENDATA
+")
+  write(truncated.mps "NAME CUT
+ROWS
+ N COST
+ L LIM
+COLUMNS
+ X1 COST 1 LIM 1
+")
+  file(MAKE_DIRECTORY "${WORK_DIR}/folder.mps")
+  set(command ${GROUP})
+
+  if(GROUP STREQUAL "lp")
+    run(lp opposed.mps)
+    expect_rc(0)
+    expect_in(out "LP optimal: objective 6")
+    run(lp opposed.mps --json)
+    expect_rc(0)
+    expect_json()
+    expect_key(optimal status)
+    expect_key(lp check)
+    expect_type(NUMBER iterations)
+    expect_type(NUMBER primal_residual)
+    expect_type(NUMBER dual_residual)
+    expect_type(NUMBER gap)
+    string(JSON objective GET "${out}" objective)
+    count_check()
+    if(objective LESS 5.9999999 OR objective GREATER 6.0000001)
+      fail("objective ${objective}, expected 6")
+    endif()
+    run(lp interior.mps --json)
+    expect_rc(0)
+    string(JSON objective GET "${out}" objective)
+    count_check()
+    if(objective LESS -4.0000001 OR objective GREATER -3.9999999)
+      fail("objective ${objective}, expected -4")
+    endif()
+    run(lp infeasible2.mps --json)
+    expect_rc(1)
+    expect_json()
+    expect_key(infeasible status)
+    expect_type(ARRAY farkas)
+    run(lp unbounded.mps)
+    expect_rc(1)
+    expect_in(out "LP unbounded")
+    run(INPUT interior.mps lp -)
+    expect_rc(0)
+  else()
+    run(slater opposed.mps)
+    expect_rc(1)
+    expect_in(out "no strict interior")
+    expect_in(out "implicit eq  CAP, FLOOR")
+    expect_in(out "CAP holds with equality at its upper bound 1")
+    run(slater opposed.mps --json)
+    expect_rc(1)
+    expect_json()
+    expect_key(slater check)
+    expect_key(fails verdict)
+    expect_key(OFF strict_interior)
+    expect_length(2 implicit_equalities)
+    expect_key(CAP implicit_equalities 0)
+    expect_key(FLOOR implicit_equalities 1)
+    expect_length(0 implicit_fixed_columns)
+    expect_type(NUMBER margin)
+    expect_key(feasible feasibility)
+    expect_key(holds refined_slater)
+    run(slater interior.mps --json)
+    expect_rc(0)
+    expect_json()
+    expect_key(holds verdict)
+    expect_key(ON strict_interior)
+    expect_length(0 implicit_equalities)
+    run(slater interior.mps)
+    expect_rc(0)
+    expect_in(out "strict interior: a point meets every inequality strictly")
+    run(slater pinned.mps --json)
+    expect_rc(1)
+    expect_key(fails verdict)
+    expect_key(TOTAL implicit_equalities 0)
+    expect_length(2 implicit_fixed_columns)
+    expect_key(X1 implicit_fixed_columns 0)
+    expect_key(X2 implicit_fixed_columns 1)
+    run(slater infeasible.mps --json)
+    expect_rc(1)
+    expect_json()
+    expect_key(infeasible verdict)
+    expect_key(infeasible feasibility)
+    expect_key(OFF strict_interior)
+    expect_length(2 certificate_rows)
+    run(slater infeasible2.mps --json)
+    expect_rc(1)
+    expect_key(infeasible verdict)
+    run(slater infeasible.mps)
+    expect_rc(1)
+    expect_in(out "infeasible: no point meets the constraints")
+    # The objective is ignored: an unbounded LP has a strict interior all the same.
+    run(slater unbounded.mps)
+    expect_rc(0)
+    # A larger tolerance band: --tol is the relative slack tolerance.
+    run(slater interior.mps --tol 1e-3 --json)
+    expect_rc(0)
+    expect_key(0.001 slack_tolerance)
+    foreach(bad --tol=0 --tol=0.5 --tol=abc --tol=nan)
+      run(slater interior.mps "${bad}")
+      expect_rc(64)
+      expect_in(err "--tol must be a finite number")
+    endforeach()
+    run(INPUT opposed.mps slater -)
+    expect_rc(1)
+    expect_in(out "CAP, FLOOR")
+  endif()
+
+  # Bad files and usage, the same for both commands.
+  run_args(${command} missing.mps)
+  expect_error(66 missing.mps)
+  run_args(${command} folder.mps)
+  expect_error(66 folder.mps)
+  run_args(${command} garbled.mps)
+  expect_error(65 garbled.mps 6)
+  run_args(${command} truncated.mps)
+  expect_error(65 truncated.mps)
+  expect_in(err "ENDATA")
+  run(${command})
+  expect_rc(64)
+  expect_in(err "missing MODEL.mps argument")
+  run(${command} opposed.mps extra.mps)
+  expect_rc(64)
+  run(${command} --help)
+  expect_rc(0)
+  expect_in(out "Usage: qualify ${command} MODEL.mps")
+  run(--help)
+  expect_rc(0)
+  expect_in(out "  ${command} ")
 
 else()
   message(FATAL_ERROR "unknown GROUP '${GROUP}'")

@@ -10,6 +10,7 @@
 #include <fstream>
 #include <iostream>
 #include <qualify/matrix_market.hpp>
+#include <qualify/mps.hpp>
 #include <string>
 #include <string_view>
 #include <system_error>
@@ -55,6 +56,30 @@ inline result<Eigen::MatrixXd> read_dense_jacobian(const std::string& path) {
                                options.max_dense_entries * sizeof(double) >> 20),
                    path, std::nullopt};
   return std::move(dense.matrix);
+}
+
+/// An LP model in an MPS file ('-': standard input): 66 when it cannot be opened, 65 with the
+/// line when its content is malformed.
+inline result<qualify::mps_model> read_mps_model(const std::string& path) {
+  const std::string shown = shown_name(path);
+  if (path != "-") {
+    std::error_code ec;
+    if (std::filesystem::is_directory(path, ec))
+      return problem{exit_code::no_input, fmt::format("cannot open {}: it is a directory", shown),
+                     path, std::nullopt};
+    std::ifstream probe(path);
+    if (!probe)
+      return problem{exit_code::no_input,
+                     fmt::format("cannot open {}: {}", shown, std::strerror(errno)), path,
+                     std::nullopt};
+  }
+  qualify::mps_model model =
+      path == "-" ? qualify::read_mps(std::cin) : qualify::read_mps_file(path);
+  if (!model.ok())
+    return problem{exit_code::data, fmt::format("{}: {}", shown, model.error), path,
+                   model.error_line ? std::optional<std::size_t>(model.error_line)
+                                    : std::nullopt};
+  return model;
 }
 
 /// Limits of a labels file.

@@ -14,6 +14,9 @@
 #include <qualify/json.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/mfcq.hpp>
+#include <qualify/lp.hpp>
+#include <qualify/mps.hpp>
+#include <qualify/slater.hpp>
 #include <qualify/version.hpp>
 #include <string>
 #include <vector>
@@ -184,6 +187,78 @@ int run_mfcq(const invocation& in) {
                     eq_path && report.message.find("equality") != std::string::npos ? *eq_path
                                                                                       : *ineq_path,
                     std::nullopt});
+// ---- lp -------------------------------------------------------------------------------------
+
+const qualify_cli::command_spec lp_spec{
+    "lp",
+    "solve an LP model (MPS) with the library's interior-point engine",
+    {"MODEL.mps"},
+    {},
+    "Solves min c^T x + c0 s.t. row bounds and column bounds, the LP in MODEL.mps (fixed or\n"
+    "free MPS; '-' reads standard input), with the homogeneous self-dual interior-point\n"
+    "method of <qualify/lp.hpp>. The objective includes the constant given by the RHS entry\n"
+    "of the objective row. Integer markers are ignored (the LP relaxation is solved).\n",
+    "Output: the status (optimal, infeasible, unbounded, iteration_limit, numerical_trouble),\n"
+    "the objective, the iterations, residuals and violations. With --json, one JSON object\n"
+    "with the keys schema_version, check, status, message, objective, iterations,\n"
+    "primal_residual, dual_residual, gap, primal_violation, dual_violation, x and more.\n"
+    "Exit status here: 0 optimal, 1 any other status.\n"};
+
+int run_lp(const invocation& in) {
+  const std::string& path = in.operands()[0];
+  auto model = qualify_cli::read_mps_model(path);
+  if (!model) return in.fail(model.error());
+  const qualify::lp_result r =
+      qualify::solve_lp(model->matrix, model->objective, model->row_lower, model->row_upper,
+                        model->col_lower, model->col_upper, {}, model->objective_constant);
+  if (r.status == qualify::lp_status::invalid_input)
+    return in.fail({exit_code::data, shown_name(path) + ": " + r.message, path, std::nullopt});
+  if (in.json())
+    fmt::print("{}\n", qualify::to_json(r));
+  else
+    fmt::print("{:f}", r);
+  return r.status == qualify::lp_status::optimal ? exit_code::holds : exit_code::fails;
+}
+
+// ---- slater ---------------------------------------------------------------------------------
+
+const qualify_cli::command_spec slater_spec{
+    "slater",
+    "does the constraint set of an LP model (MPS) have a strict interior (Slater)?",
+    {"MODEL.mps"},
+    {{"--tol", "X",
+      "relative slack tolerance tau, a number in (0, 0.1): an inequality is\n"
+      "an implicit equality when no feasible point gives it a relative slack\n"
+      "above tau, strict when one gives it 10 tau (default 1e-7)"}},
+    "Checks the constraints of the LP in MODEL.mps (the objective is ignored): is there a\n"
+    "feasible point (else a Farkas certificate names the rows), and a point at which every\n"
+    "inequality row and every finite bound of an unfixed column holds strictly? For an\n"
+    "affine model the refined Slater condition holds exactly when the model is feasible;\n"
+    "the strict form fails exactly when some inequality is an implicit equality (tight on\n"
+    "the whole feasible set): those rows and the columns their bounds pin are named.\n",
+    "Output: the full report on stdout. With --json, one JSON object with the keys\n"
+    "schema_version, check, verdict (holds, fails, undecided, infeasible, invalid_input),\n"
+    "strict_interior, implicit_equalities (row names), implicit_fixed_columns (column\n"
+    "names), margin, feasibility, refined_slater, findings and more.\n"
+    "Exit status here: 0 holds, 1 fails or infeasible, 2 undecided.\n"};
+
+int run_slater(const invocation& in) {
+  const std::string& path = in.operands()[0];
+  qualify::affine_slater_options options;
+  if (const auto tol = in.value("--tol")) {
+    const auto x = qualify_cli::parse_open_unit(*tol);
+    if (!x || !(*x * options.undecided_band < 1))
+      return in.usage_error(fmt::format("--tol must be a finite number in (0, 0.1), got {}",
+                                        invocation::quote(*tol)));
+    options.slack_tolerance = *x;
+  }
+  auto model = qualify_cli::read_mps_model(path);
+  if (!model) return in.fail(model.error());
+  const qualify::affine_slater_report report = qualify::check_affine_slater(
+      model->matrix, model->row_lower, model->row_upper, model->col_lower, model->col_upper,
+      options, model->row_names, model->col_names);
+  if (report.result == qualify::verdict::invalid_input)
+    return in.fail({exit_code::data, shown_name(path) + ": " + report.message, path, std::nullopt});
   if (in.json())
     fmt::print("{}\n", qualify::to_json(report));
   else
@@ -196,6 +271,8 @@ int run_mfcq(const invocation& in) {
 const qualify_cli::command commands[] = {
     {&licq_spec, run_licq},
     {&mfcq_spec, run_mfcq},
+    {&lp_spec, run_lp},
+    {&slater_spec, run_slater},
 };
 
 std::string top_usage() {

@@ -5,7 +5,9 @@
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
+#include <qualify/lp.hpp>
 #include <qualify/report.hpp>
+#include <qualify/slater.hpp>
 
 #include <fmt/format.h>
 #include <string>
@@ -114,6 +116,63 @@ inline std::string render(const qualification_report& r, bool full) {
   return render(r.licq, true) + render(r.linear_cq, true);
 }
 
+inline std::string render(const lp_result& r, bool full) {
+  std::string brief = fmt::format("LP {}: objective {:.10g}, {} iterations", to_string(r.status),
+                                  r.objective, r.iterations);
+  if (!full) return brief;
+  std::string out = brief + "\n";
+  out += "  message      " + r.message + "\n";
+  out += fmt::format("  residuals    primal {:.3g}, dual {:.3g}, gap {:.3g} (relative, scaled)\n",
+                     r.primal_residual, r.dual_residual, r.gap);
+  out += fmt::format("  violations   primal {:.3g}, dual {:.3g} (on the data)\n",
+                     r.primal_violation, r.dual_violation);
+  if (r.status == lp_status::infeasible || r.status == lp_status::unbounded)
+    out += fmt::format("  certificate  {} checked, margin {:.3g}\n",
+                       r.status == lp_status::infeasible ? "Farkas vector" : "improving ray",
+                       r.certificate_margin);
+  out += fmt::format("  presolve     removed {} rows, {} columns\n", r.presolve_removed_rows,
+                     r.presolve_removed_cols);
+  out += "  factorised   " + (r.linear_solver.empty() ? std::string("-") : r.linear_solver) + "\n";
+  return out;
+}
+
+inline std::string render(const affine_slater_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  out += fmt::format("  system       {} rows ({} equalities) x {} columns ({} fixed), {} "
+                     "inequality sides\n",
+                     r.rows, r.equality_rows, r.cols, r.fixed_columns, r.inequality_sides);
+  if (r.result != verdict::invalid_input && r.result != verdict::not_checked) {
+    out += fmt::format("  verdict      {}; feasibility {}; refined Slater {}; strict interior {}\n",
+                       r.verdict_name(), to_string(r.feasible), to_string(r.refined_slater),
+                       r.strict_interior ? "yes" : "no");
+    out += fmt::format("  tolerances   slack {:.3g}, band {:.3g} (strict >= {:.3g}), feasibility "
+                       "{:.3g} (relative)\n",
+                       r.slack_tolerance, r.undecided_band, r.slack_tolerance * r.undecided_band,
+                       r.feasibility_tolerance);
+    out += fmt::format("  margin       {:.3g} (largest achievable minimum relative slack)\n",
+                       r.margin);
+    if (r.strict_point.size() || r.strict_interior)
+      out += fmt::format("  point        smallest relative slack {:.3g}, largest violation {:.3g}\n",
+                         r.point_min_slack, r.point_violation);
+    std::vector<Index> rows = r.implicit_equality_rows();
+    out += "  implicit eq  " + join_rows(rows, r.names) + "\n";
+    std::string cols;
+    for (Index j : r.implicit_fixed_column_indices()) cols += (cols.empty() ? "" : ", ") + r.column_name(j);
+    out += "  fixed cols   " + (cols.empty() ? std::string("none") : cols) + "\n";
+    if (!r.certificate_rows.empty())
+      out += "  certificate  " + join_rows(r.certificate_rows, r.names) +
+             fmt::format(" (margin {:.3g})\n", r.certificate_margin);
+    std::string lps;
+    for (const auto& s : r.lp_solves)
+      lps += fmt::format("{}{} {} ({} it.)", lps.empty() ? "" : ", ", s.purpose, to_string(s.status),
+                         s.iterations);
+    out += fmt::format("  LPs          {} solved, {} iterations: {}\n", r.lp_solves.size(),
+                       r.lp_iterations, lps.empty() ? std::string("none") : lps);
+  }
+  return out + render_findings(r.findings);
+}
+
 /// Shared parser: an empty spec or `f`.
 struct report_formatter {
   bool full = false;
@@ -156,3 +215,7 @@ template <>
 struct fmt::formatter<qualify::mfcq_report> : qualify::detail::report_formatter {};
 template <>
 struct fmt::formatter<qualify::qualification_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::lp_result> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::affine_slater_report> : qualify::detail::report_formatter {};

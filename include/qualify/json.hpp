@@ -5,7 +5,9 @@
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
+#include <qualify/lp.hpp>
 #include <qualify/report.hpp>
+#include <qualify/slater.hpp>
 
 #include <cmath>
 #include <cstdio>
@@ -272,6 +274,79 @@ inline void write_body(json_writer& w, const mfcq_report& r) {
   write_findings(w, r.findings);
 }
 
+inline void write_body(json_writer& w, const lp_result& r) {
+  w.field("check", "lp")
+      .field("status", to_string(r.status))
+      .field("message", r.message)
+      .field("objective", r.objective)
+      .field("iterations", r.iterations)
+      .field("primal_residual", r.primal_residual)
+      .field("dual_residual", r.dual_residual)
+      .field("gap", r.gap)
+      .field("primal_violation", r.primal_violation)
+      .field("dual_violation", r.dual_violation)
+      .field("certificate_margin", r.certificate_margin)
+      .field("presolve_removed_rows", r.presolve_removed_rows)
+      .field("presolve_removed_cols", r.presolve_removed_cols)
+      .field("linear_solver", r.linear_solver);
+  write_vector(w, "x", r.x);
+  if (r.status == lp_status::infeasible) write_vector(w, "farkas", r.farkas);
+  if (r.status == lp_status::unbounded) write_vector(w, "ray", r.ray);
+}
+
+inline void write_body(json_writer& w, const affine_slater_report& r) {
+  auto bounds = [&](std::string_view k, const std::vector<implicit_bound>& list, bool column) {
+    w.key(k).begin_array();
+    for (const auto& b : list)
+      w.begin_object()
+          .field("index", b.index)
+          .field("name", column ? r.column_name(b.index) : r.names(b.index))
+          .field("side", to_string(b.side))
+          .field("value", b.value)
+          .end_object();
+    w.end_array();
+  };
+  std::vector<std::string> rows, cols;
+  for (Index i : r.implicit_equality_rows()) rows.push_back(r.names(i));
+  for (Index j : r.implicit_fixed_column_indices()) cols.push_back(r.column_name(j));
+  w.field("check", "slater")
+      .field("verdict", r.verdict_name())
+      .field("message", r.message)
+      .field("feasibility", to_string(r.feasible))
+      .field("refined_slater", to_string(r.refined_slater))
+      .field("strict_interior", r.strict_interior)
+      .field("implicit_equalities", rows)
+      .field("implicit_fixed_columns", cols)
+      .field("margin", r.margin)
+      .field("rows", r.rows)
+      .field("cols", r.cols)
+      .field("equality_rows", r.equality_rows)
+      .field("fixed_columns", r.fixed_columns)
+      .field("inequality_sides", r.inequality_sides)
+      .field("slack_tolerance", r.slack_tolerance)
+      .field("undecided_band", r.undecided_band)
+      .field("feasibility_tolerance", r.feasibility_tolerance)
+      .field("point_min_slack", r.point_min_slack)
+      .field("point_violation", r.point_violation);
+  write_vector(w, "strict_point", r.strict_point);
+  bounds("implicit_equality_sides", r.implicit_equalities, false);
+  bounds("implicit_fixed_column_sides", r.implicit_fixed_columns, true);
+  bounds("undecided_rows", r.undecided_rows, false);
+  bounds("undecided_columns", r.undecided_columns, true);
+  w.field("certificate_rows", r.certificate_rows).field("certificate_margin", r.certificate_margin);
+  write_vector(w, "farkas", r.farkas);
+  w.key("lp_solves").begin_array();
+  for (const auto& s : r.lp_solves)
+    w.begin_object()
+        .field("purpose", s.purpose)
+        .field("status", to_string(s.status))
+        .field("iterations", s.iterations)
+        .field("value", s.value)
+        .end_object();
+  w.end_array().field("lp_iterations", r.lp_iterations);
+  write_findings(w, r.findings);
+}
+
 template <class Report>
 std::string report_json(const Report& r) {
   json_writer w;
@@ -288,6 +363,8 @@ inline std::string to_json(const licq_report& r) { return detail::report_json(r)
 inline std::string to_json(const linear_cq_report& r) { return detail::report_json(r); }
 inline std::string to_json(const affine_check_report& r) { return detail::report_json(r); }
 inline std::string to_json(const mfcq_report& r) { return detail::report_json(r); }
+inline std::string to_json(const lp_result& r) { return detail::report_json(r); }
+inline std::string to_json(const affine_slater_report& r) { return detail::report_json(r); }
 inline std::string to_json(const qualification_report& r) {
   detail::json_writer w;
   w.begin_object().field("schema_version", json_schema_version).key("licq").begin_object();

@@ -11,3 +11,4 @@
 #include <qualify/mps.hpp>
 #include <qualify/lp.hpp>
 #include <qualify/mfcq.hpp>
+#include <qualify/slater.hpp>
