@@ -187,6 +187,13 @@ int run_mfcq(const invocation& in) {
                     eq_path && report.message.find("equality") != std::string::npos ? *eq_path
                                                                                       : *ineq_path,
                     std::nullopt});
+  if (in.json())
+    fmt::print("{}\n", qualify::to_json(report));
+  else
+    fmt::print("{:f}", report);
+  return qualify_cli::exit_for(report.result);
+}
+
 // ---- lp -------------------------------------------------------------------------------------
 
 const qualify_cli::command_spec lp_spec{
