@@ -32,6 +32,17 @@ using qualify_cli::invocation;
 using qualify_cli::problem;
 using qualify_cli::shown_name;
 
+/// Prints a checked report (JSON with --json, else the full text) and maps its verdict to the
+/// exit status.
+template <class Report>
+int print_report(const invocation& in, const Report& report) {
+  if (in.json())
+    fmt::print("{}\n", qualify::to_json(report));
+  else
+    fmt::print("{:f}", report);
+  return qualify_cli::exit_for(report.result);
+}
+
 /// Label k sits on line k (blank lines come only at the end): name the first label without
 /// a row, or the last one when rows are left without a label. `of` names the matrices.
 problem label_count_problem(const std::string& labels_path, std::size_t n, std::size_t rows,
@@ -107,11 +118,7 @@ int run_licq(const invocation& in) {
   const qualify::licq_report report = qualify::check_licq(*jacobian, options, std::move(labels));
   if (report.result == qualify::verdict::invalid_input)
     return in.fail({exit_code::data, shown_name(path) + ": " + report.message, path, std::nullopt});
-  if (in.json())
-    fmt::print("{}\n", qualify::to_json(report));
-  else
-    fmt::print("{:f}", report);
-  return qualify_cli::exit_for(report.result);
+  return print_report(in, report);
 }
 
 // ---- mfcq -----------------------------------------------------------------------------------
@@ -187,11 +194,7 @@ int run_mfcq(const invocation& in) {
                     eq_path && report.message.find("equality") != std::string::npos ? *eq_path
                                                                                       : *ineq_path,
                     std::nullopt});
-  if (in.json())
-    fmt::print("{}\n", qualify::to_json(report));
-  else
-    fmt::print("{:f}", report);
-  return qualify_cli::exit_for(report.result);
+  return print_report(in, report);
 }
 
 // ---- lp -------------------------------------------------------------------------------------
@@ -266,11 +269,7 @@ int run_slater(const invocation& in) {
       options, model->row_names, model->col_names);
   if (report.result == qualify::verdict::invalid_input)
     return in.fail({exit_code::data, shown_name(path) + ": " + report.message, path, std::nullopt});
-  if (in.json())
-    fmt::print("{}\n", qualify::to_json(report));
-  else
-    fmt::print("{:f}", report);
-  return qualify_cli::exit_for(report.result);
+  return print_report(in, report);
 }
 
 // ---- dispatch -------------------------------------------------------------------------------
