@@ -20,6 +20,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <fstream>
 #include <limits>
 #include <random>
 #include <string>
@@ -60,6 +61,28 @@ double peak_rss_mib() {
   rusage usage{};
   getrusage(RUSAGE_SELF, &usage);
   return static_cast<double>(usage.ru_maxrss) / 1024.0;  // Linux reports KiB
+}
+
+// A "Vm...:" field of /proc/self/status in MiB (0 when it cannot be read).
+double status_mib(std::string_view field) {
+  std::ifstream status("/proc/self/status");
+  std::string line;
+  while (std::getline(status, line))
+    if (line.compare(0, field.size(), field) == 0) return std::atof(line.c_str() + field.size()) / 1024.0;
+  return 0;
+}
+
+// Memory the call needs beyond what the process holds when it starts: writing 5 to
+// /proc/self/clear_refs resets the peak (VmHWM) to the current RSS (Linux >= 4.0,
+// Documentation/admin-guide/mm/soft-dirty.rst), so the peak afterwards minus the RSS before
+// is the call's own high-water mark. Negative when the reset is not available.
+template <class F>
+double working_mib(F&& run) {
+  std::ofstream("/proc/self/clear_refs") << "5";
+  const double before = status_mib("VmRSS:");
+  if (status_mib("VmHWM:") > before + 1.0) return -1;  // the reset did not happen
+  run();
+  return status_mib("VmHWM:") - before;
 }
 
 // Relative rank threshold max(m, n) * eps * |largest|, the library's documented default
@@ -196,7 +219,11 @@ int main(int argc, char** argv) {
                     deficient ? "rank-5" : "full", r.method, r.t.rank, r.t.seconds,
                     r.flops / r.t.seconds / 1e9, ratio, r.t.note.c_str());
       }
-      std::printf("%-48s peak RSS so far %.0f MiB (expected rank %td)\n", "", peak_rss_mib(),
+      const double input_mib = double(jacobian.size()) * sizeof(double) / 1048576.0;
+      const double work_mib = working_mib([&] { ours(jacobian); });
+      std::printf("%-48s check_licq working memory %.1f MiB = %.2f x the input (%.1f MiB); "
+                  "peak RSS so far %.0f MiB (expected rank %td)\n",
+                  "", work_mib, work_mib / input_mib, input_mib, peak_rss_mib(),
                   deficient ? m - 5 : m);
     }
   }

@@ -11,6 +11,7 @@
 #include <random>
 #include <set>
 #include <string>
+#include <tuple>
 #include <vector>
 
 #include "netlib_index.hpp"
@@ -462,6 +463,32 @@ TEST_CASE("degenerate and rank-deficient LPs agree with GLPK") {
     CHECK(r.message.find("presolve") != std::string::npos);
     CHECK(farkas_proves_infeasible(p, r.farkas));
     CHECK(glpk_solve(p).status == GLP_NOFEAS);
+  }
+  SUBCASE("infeasible found by presolve: singleton rows whose bounds cross") {
+    // First x0 >= 2 (row 0) against 2 x0 <= 2 (row 1); then x1 + x2 >= 2 with x2 fixed at 3
+    // (row 2) against -x1 >= 2 (row 3). No cost, so only the bounds decide.
+    test_lp p;
+    p.A = Eigen::MatrixXd::Zero(4, 3);
+    p.A(0, 0) = 1;
+    p.A(1, 0) = 2;
+    p.A(2, 1) = 1;
+    p.A(2, 2) = 1;
+    p.A(3, 1) = -1;
+    p.c = Eigen::Vector3d::Zero();
+    p.cl = Eigen::Vector3d(-inf, -inf, 3);
+    p.cu = Eigen::Vector3d(inf, inf, 3);
+    for (const auto& [kept, lower, upper] :
+         {std::tuple{0, Eigen::Vector4d(2, -inf, -inf, -inf), Eigen::Vector4d(inf, 2, inf, inf)},
+          std::tuple{1, Eigen::Vector4d(-inf, -inf, 2, 2), Eigen::Vector4d(inf, inf, inf, inf)}}) {
+      CAPTURE(kept);
+      p.rl = lower;
+      p.ru = upper;
+      auto r = solve(p);
+      REQUIRE(r.status == qualify::lp_status::infeasible);
+      CHECK(r.message.find("presolve") != std::string::npos);
+      CHECK(farkas_proves_infeasible(p, r.farkas));
+      CHECK(glpk_solve(p).status == GLP_NOFEAS);
+    }
   }
   SUBCASE("unbounded through an empty column") {
     test_lp p;

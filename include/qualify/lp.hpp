@@ -330,15 +330,11 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
   r.presolve_removed_rows = m - static_cast<Index>(pre.map.live_rows.size());
   r.presolve_removed_cols = n - static_cast<Index>(pre.map.live_cols.size());
   if (pre.map.infeasible_row) {
+    // Presolve's combination of rows, accepted only when it checks on the original data;
+    // otherwise the interior point decides.
     Eigen::VectorXd y = Eigen::VectorXd::Zero(m);
-    Index i = *pre.map.infeasible_row;
-    // The row's activity is fixed by fixed columns: y = +-e_i proves it.
-    y[i] = 1.0;
-    double margin = lp_farkas_margin(original, y, o.certificate_tolerance);
-    if (!(margin > o.certificate_tolerance)) {
-      y[i] = -1.0;
-      margin = lp_farkas_margin(original, y, o.certificate_tolerance);
-    }
+    for (const auto& [row, weight] : pre.map.infeasible_weights) y[row] += weight;
+    const double margin = lp_farkas_margin(original, y, o.certificate_tolerance);
     if (margin > o.certificate_tolerance) {
       r.status = lp_status::infeasible;
       r.message = "presolve: " + pre.map.infeasible_reason;

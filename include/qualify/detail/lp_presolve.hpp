@@ -2,6 +2,8 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
+#include <qualify/report.hpp>
+
 #include <Eigen/Core>
 #include <Eigen/SparseCore>
 #include <algorithm>
@@ -36,9 +38,11 @@ struct lp_presolve_map {
   // Singleton rows in the order presolve removed them: (row, its column).
   std::vector<std::pair<Eigen::Index, Eigen::Index>> singleton_order;
   Eigen::Index empty_rows = 0, singleton_rows = 0, fixed_cols = 0, empty_cols = 0;
-  // Set when presolve alone proves infeasibility: the row whose bounds cannot be met.
+  // Set when presolve alone proves infeasibility: the row whose bounds cannot be met, and
+  // the rows (with weights) of a Farkas combination that proves it, to be checked.
   std::optional<Eigen::Index> infeasible_row;
   std::string infeasible_reason;
+  std::vector<std::pair<Eigen::Index, double>> infeasible_weights;
 };
 
 struct lp_presolved {
@@ -122,6 +126,7 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
           map.infeasible_reason =
               "row " + std::to_string(i) +
               " has no free entries and its bounds exclude the value of the fixed ones";
+          map.infeasible_weights = {{i, rl[i] > slack(rl[i]) ? 1.0 : -1.0}};
           break;
         }
         row_removed[ii] = true;
@@ -141,7 +146,24 @@ inline lp_presolved presolve(const lp_general& p, double tolerance) {
       auto jj = static_cast<std::size_t>(j);
       double lo = a > 0 ? rl[i] / a : ru[i] / a;
       double up = a > 0 ? ru[i] / a : rl[i] / a;
-      if (lo > cu[j] + slack(cu[j]) || up < cl[j] - slack(cl[j])) continue;  // the solver proves it
+      const bool above = lo > cu[j] + slack(cu[j]), below = up < cl[j] - slack(cl[j]);
+      if (above || below) {
+        // Row i implies x_j >= lo (weight 1/a) above the upper bound of x_j, or x_j <= up
+        // (weight -1/a) below its lower bound; when that bound came from an earlier singleton
+        // row, that row with the opposite weight cancels x_j from the combination.
+        map.infeasible_row = i;
+        map.infeasible_reason = "row " + std::to_string(i) + " bounds column " +
+                                std::to_string(j) + " to [" + format_figure(lo) + ", " +
+                                format_figure(up) + "], outside its bounds [" +
+                                format_figure(cl[j]) + ", " + format_figure(cu[j]) + "]";
+        const double sign = above ? 1.0 : -1.0;
+        map.infeasible_weights = {{i, sign / a}};
+        if (const auto& src = above ? map.upper_source[jj] : map.lower_source[jj]) {
+          for (lp_sparse::InnerIterator it(At, *src); it; ++it)
+            if (it.row() == j) map.infeasible_weights.emplace_back(*src, -sign / it.value());
+        }
+        break;
+      }
       if (lo > cl[j]) {
         cl[j] = std::min(lo, cu[j]);
         map.lower_source[jj] = i;
