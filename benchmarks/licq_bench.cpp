@@ -12,6 +12,7 @@
 
 #include <cblas.h>
 #include <lapacke.h>
+#include <malloc.h>
 #include <sys/resource.h>
 
 #include <Eigen/Dense>
@@ -72,12 +73,15 @@ double status_mib(std::string_view field) {
   return 0;
 }
 
-// Memory the call needs beyond what the process holds when it starts: writing 5 to
+// Memory the call needs beyond what the process holds when it starts. Freed memory is handed
+// back first (malloc_trim; main() also makes every large block an mmap of its own) so that
+// it is not reused unseen; then writing 5 to
 // /proc/self/clear_refs resets the peak (VmHWM) to the current RSS (Linux >= 4.0,
 // Documentation/admin-guide/mm/soft-dirty.rst), so the peak afterwards minus the RSS before
 // is the call's own high-water mark. Negative when the reset is not available.
 template <class F>
 double working_mib(F&& run) {
+  malloc_trim(0);
   std::ofstream("/proc/self/clear_refs") << "5";
   const double before = status_mib("VmRSS:");
   if (status_mib("VmHWM:") > before + 1.0) return -1;  // the reset did not happen
@@ -180,6 +184,7 @@ MatrixXd make_jacobian(Index m, Index n, bool deficient, std::mt19937_64& rng) {
 
 int main(int argc, char** argv) {
   openblas_set_num_threads(1);
+  mallopt(M_MMAP_THRESHOLD, 1 << 20);  // a fixed threshold: freed matrices leave the RSS
   const int largest = argc > 1 ? std::atoi(argv[1]) : 2000;
   const char* coretype = std::getenv("OPENBLAS_CORETYPE");
   std::printf("licq_bench: OpenBLAS threads %d (core type %s, %s), Eigen threads %d\n",

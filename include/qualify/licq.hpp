@@ -153,7 +153,7 @@ struct triangle_bound {
 /// the computed inverse, |X^ - X| <~ n u |X||T||X| (Higham, Accuracy and Stability of
 /// Numerical Algorithms, 2nd ed., 2002, ch. 14; from memory).
 template <class Scalar>
-triangle_bound<Scalar> bound_smallest_singular_value(const matrix<Scalar>& t) {
+triangle_bound<Scalar> bound_smallest_singular_value(const Eigen::Ref<const matrix<Scalar>>& t) {
   triangle_bound<Scalar> out;
   const Index n = t.rows();
   if (n == 0) return out;
