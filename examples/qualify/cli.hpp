@@ -65,6 +65,7 @@ class result {
   T& operator*() { return *value_; }
   const T& operator*() const { return *value_; }
   T* operator->() { return &*value_; }
+  const T* operator->() const { return &*value_; }
   const problem& error() const noexcept { return problem_; }
 
  private:
