@@ -22,12 +22,18 @@ enum class json_kind { null, boolean, number, string, array, object };
 
 constexpr std::string_view to_string(json_kind k) noexcept {
   switch (k) {
-    case json_kind::null: return "null";
-    case json_kind::boolean: return "a boolean";
-    case json_kind::number: return "a number";
-    case json_kind::string: return "a string";
-    case json_kind::array: return "an array";
-    case json_kind::object: break;
+    case json_kind::null:
+      return "null";
+    case json_kind::boolean:
+      return "a boolean";
+    case json_kind::number:
+      return "a number";
+    case json_kind::string:
+      return "a string";
+    case json_kind::array:
+      return "an array";
+    case json_kind::object:
+      break;
   }
   return "an object";
 }
@@ -78,8 +84,8 @@ inline json_position position_of(std::string_view text, std::size_t offset) {
 inline std::string json_path_member(std::string_view path, std::string_view key) {
   bool plain = !key.empty() && !(key[0] >= '0' && key[0] <= '9');
   for (const char c : key)
-    plain = plain && ((c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') ||
-                      (c >= '0' && c <= '9') || c == '_');
+    plain = plain && ((c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') ||
+                      c == '_');
   if (plain) return path.empty() ? std::string(key) : std::string(path) + "." + std::string(key);
   std::string out(path);
   out += "[\"";
@@ -192,15 +198,21 @@ class json_parser {
     out.offset = pos_;
     if (at_end()) return fail(pos_, "expected a value, got the end of the input");
     switch (peek()) {
-      case '{': return parse_object(out, depth + 1);
-      case '[': return parse_array(out, depth + 1);
+      case '{':
+        return parse_object(out, depth + 1);
+      case '[':
+        return parse_array(out, depth + 1);
       case '"':
         out.kind = json_kind::string;
         return parse_string(out.text);
-      case 't': return literal("true", out);
-      case 'f': return literal("false", out);
-      case 'n': return literal("null", out);
-      default: break;
+      case 't':
+        return literal("true", out);
+      case 'f':
+        return literal("false", out);
+      case 'n':
+        return literal("null", out);
+      default:
+        break;
     }
     if (peek() == '-' || (peek() >= '0' && peek() <= '9')) return parse_number(out);
     return fail(pos_, fmt::format("expected a value (object, array, string, number, true, false "
@@ -208,55 +220,53 @@ class json_parser {
                                   found()));
   }
 
-  bool enter(std::size_t depth) {
+  // Enters the array or object whose opening bracket is at pos_; `more` is false when the
+  // closing bracket follows at once.
+  bool open(json_value& out, json_kind kind, char close, std::size_t depth, bool& more) {
     if (depth > options_.max_depth)
       return fail(pos_, fmt::format("arrays and objects nested deeper than {} levels "
                                     "(json_read_options::max_depth)",
                                     options_.max_depth));
+    out.kind = kind;
+    ++pos_;
+    skip_blanks();
+    more = at_end() || peek() != close;
+    if (!more) ++pos_;
+    return true;
+  }
+
+  // After an element: ',' (then `more`) or the closing bracket.
+  bool next(char close, std::string_view element, bool& more) {
+    skip_blanks();
+    if (at_end() || (peek() != ',' && peek() != close))
+      return fail(pos_,
+                  fmt::format("expected ',' or '{}' after {}, got {}", close, element, found()));
+    more = peek() == ',';
+    ++pos_;
+    skip_blanks();
     return true;
   }
 
   bool parse_array(json_value& out, std::size_t depth) {
-    if (!enter(depth)) return false;
-    out.kind = json_kind::array;
-    ++pos_;  // '['
-    skip_blanks();
-    if (!at_end() && peek() == ']') {
-      ++pos_;
-      return true;
-    }
+    bool more = false;
+    if (!open(out, json_kind::array, ']', depth, more)) return false;
     const std::size_t path_size = path_.size();
-    for (;;) {
+    while (more) {
       path_ = json_path_index(path_.substr(0, path_size), out.items.size());
       out.items.emplace_back();
       if (!parse_value(out.items.back(), depth)) return false;
       path_.resize(path_size);
-      skip_blanks();
-      if (!at_end() && peek() == ',') {
-        ++pos_;
-        skip_blanks();
-        continue;
-      }
-      if (!at_end() && peek() == ']') {
-        ++pos_;
-        return true;
-      }
-      return fail(pos_, fmt::format("expected ',' or ']' after an array element, got {}", found()));
+      if (!next(']', "an array element", more)) return false;
     }
+    return true;
   }
 
   bool parse_object(json_value& out, std::size_t depth) {
-    if (!enter(depth)) return false;
-    out.kind = json_kind::object;
-    ++pos_;  // '{'
-    skip_blanks();
-    if (!at_end() && peek() == '}') {
-      ++pos_;
-      return true;
-    }
+    bool more = false;
+    if (!open(out, json_kind::object, '}', depth, more)) return false;
     const std::size_t path_size = path_.size();
     std::unordered_set<std::string> seen;
-    for (;;) {
+    while (more) {
       if (at_end() || peek() != '"')
         return fail(pos_, fmt::format("expected a member name in double quotes, got {}", found()));
       const std::size_t key_offset = pos_;
@@ -276,31 +286,24 @@ class json_parser {
       out.items.emplace_back();
       if (!parse_value(out.items.back(), depth)) return false;
       path_.resize(path_size);
-      skip_blanks();
-      if (!at_end() && peek() == ',') {
-        ++pos_;
-        skip_blanks();
-        continue;
-      }
-      if (!at_end() && peek() == '}') {
-        ++pos_;
-        return true;
-      }
-      return fail(pos_, fmt::format("expected ',' or '}}' after an object member, got {}", found()));
+      if (!next('}', "an object member", more)) return false;
     }
+    return true;
   }
 
   // Four hex digits after "\u"; pos_ is on the first.
   bool hex4(unsigned& code) {
     code = 0;
     for (int k = 0; k < 4; ++k, ++pos_) {
-      if (at_end()) return fail(pos_, "expected four hex digits after \\u, got the end of the input");
+      if (at_end())
+        return fail(pos_, "expected four hex digits after \\u, got the end of the input");
       const char c = peek();
       const int digit = c >= '0' && c <= '9'   ? c - '0'
                         : c >= 'a' && c <= 'f' ? c - 'a' + 10
                         : c >= 'A' && c <= 'F' ? c - 'A' + 10
                                                : -1;
-      if (digit < 0) return fail(pos_, fmt::format("expected a hex digit after \\u, got {}", found()));
+      if (digit < 0)
+        return fail(pos_, fmt::format("expected a hex digit after \\u, got {}", found()));
       code = code * 16 + static_cast<unsigned>(digit);
     }
     return true;
@@ -352,15 +355,32 @@ class json_parser {
       const char e = peek();
       ++pos_;
       switch (e) {
-        case '"': out += '"'; continue;
-        case '\\': out += '\\'; continue;
-        case '/': out += '/'; continue;
-        case 'b': out += '\b'; continue;
-        case 'f': out += '\f'; continue;
-        case 'n': out += '\n'; continue;
-        case 'r': out += '\r'; continue;
-        case 't': out += '\t'; continue;
-        case 'u': break;
+        case '"':
+          out += '"';
+          continue;
+        case '\\':
+          out += '\\';
+          continue;
+        case '/':
+          out += '/';
+          continue;
+        case 'b':
+          out += '\b';
+          continue;
+        case 'f':
+          out += '\f';
+          continue;
+        case 'n':
+          out += '\n';
+          continue;
+        case 'r':
+          out += '\r';
+          continue;
+        case 't':
+          out += '\t';
+          continue;
+        case 'u':
+          break;
         default:
           --pos_;
           return fail(escape, fmt::format("expected one of \\\" \\\\ \\/ \\b \\f \\n \\r \\t "
@@ -423,8 +443,7 @@ class json_parser {
     const std::string_view token = text_.substr(start, pos_ - start);
     out.kind = json_kind::number;
     // std::from_chars: locale-independent, correctly rounded.
-    const auto [ptr, ec] =
-        std::from_chars(token.data(), token.data() + token.size(), out.number);
+    const auto [ptr, ec] = std::from_chars(token.data(), token.data() + token.size(), out.number);
     (void)ptr;  // the token is a complete JSON number, which from_chars reads whole
     if (ec == std::errc::result_out_of_range && magnitude_below_one(token)) {
       out.number = token[0] == '-' ? -0.0 : 0.0;  // underflow: the nearest double is zero

@@ -186,7 +186,8 @@ class point_schema {
       for (const auto key : allowed) known = known || key == v.keys[i];
       if (!known) {
         std::string list;
-        for (const auto key : allowed) list += fmt::format("{}\"{}\"", list.empty() ? "" : ", ", key);
+        for (const auto key : allowed)
+          list += fmt::format("{}\"{}\"", list.empty() ? "" : ", ", key);
         fail(v.items[i], json_path_member(path, v.keys[i]),
              fmt::format("unknown key; expected one of {}", list));
         return false;
@@ -216,7 +217,7 @@ class point_schema {
 
   // An array of numbers, of length `size` when given.
   bool numbers(const json_value& v, std::string_view path, std::optional<Eigen::Index> size,
-              Eigen::VectorXd& out) {
+               Eigen::VectorXd& out) {
     if (!is_kind(v, path, json_kind::array)) return false;
     const auto got = static_cast<Eigen::Index>(v.items.size());
     if (size && got != *size) {
@@ -232,7 +233,8 @@ class point_schema {
   }
 
   // An n x n matrix as an array of n rows of n numbers. Symmetry is left to the checks.
-  bool square_matrix(const json_value& v, std::string_view path, Eigen::Index n, Eigen::MatrixXd& out) {
+  bool square_matrix(const json_value& v, std::string_view path, Eigen::Index n,
+                     Eigen::MatrixXd& out) {
     if (!is_kind(v, path, json_kind::array)) return false;
     if (static_cast<Eigen::Index>(v.items.size()) != n) {
       fail(v, path, fmt::format("expected {} rows (the length of x), got {}", n, v.items.size()));
@@ -242,7 +244,7 @@ class point_schema {
     Eigen::VectorXd row;
     for (Eigen::Index i = 0; i < n; ++i) {
       if (!numbers(v.items[static_cast<std::size_t>(i)],
-                  json_path_index(path, static_cast<std::size_t>(i)), n, row))
+                   json_path_index(path, static_cast<std::size_t>(i)), n, row))
         return false;
       out.row(i) = row.transpose();
     }
@@ -276,19 +278,9 @@ inline result<point_file> read_point_file(const std::string& path,
                                           const point_read_options& options = {}) {
   const std::string shown = shown_name(path);
   std::ifstream file;
-  std::istream* in = &std::cin;
-  if (path != "-") {
-    std::error_code ec;
-    if (std::filesystem::is_directory(path, ec))
-      return problem{exit_code::no_input, fmt::format("cannot open {}: it is a directory", shown),
-                     path, std::nullopt};
-    file.open(path, std::ios::binary);
-    if (!file)
-      return problem{exit_code::no_input,
-                     fmt::format("cannot open {}: {}", shown, std::strerror(errno)), path,
-                     std::nullopt};
-    in = &file;
-  }
+  const auto opened = open_input(path, file);
+  if (!opened) return opened.error();
+  std::istream* in = *opened;
   // Read at most max_bytes + 1 bytes, so that an endless stream stops at the limit.
   std::string text;
   std::vector<char> chunk(std::size_t{1} << 16);
