@@ -590,6 +590,11 @@ TEST_CASE("point file: positions of schema errors, and JSON errors with their pa
   CHECK(r.error().message ==
         "line 4, column 16: constraints[0].gradient: expected 2 numbers (the length of x), got 1");
   CHECK(r.error().line == std::optional<std::size_t>(4));
+  // The message the README quotes for its example.
+  r = read_exact(changed_example("\"gradient\": [0, 1]", "\"gradient\": [0, 1, 2]"));
+  REQUIRE_FALSE(r);
+  CHECK(r.error().message ==
+        "line 6, column 88: constraints[1].gradient: expected 2 numbers (the length of x), got 3");
   // A number beyond a double's range is refused by the JSON reader, with the path.
   r = read_exact(changed_example("\"value\": -3", "\"value\": -3e400"));
   REQUIRE_FALSE(r);
