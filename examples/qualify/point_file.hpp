@@ -96,10 +96,12 @@ class point_schema {
       m.types.push_back(*t == 0 ? qualify::constraint_type::inequality
                                 : qualify::constraint_type::equality);
 
+      using kind = qualify::constraint_kind;
+      constexpr kind kinds[] = {kind::affine, kind::convex, kind::nonlinear, kind::unknown};
       const std::optional<std::size_t> k =
           choice(*c.find("kind"), path + ".kind", {"affine", "convex", "nonlinear", "unknown"});
       if (!k) return *error_;
-      m.kinds.push_back(static_cast<qualify::constraint_kind>(*k));  // the enum's order
+      m.kinds.push_back(kinds[*k]);
 
       double value = 0;
       if (!number(*c.find("value"), path + ".value", value)) return *error_;
