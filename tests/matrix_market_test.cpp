@@ -12,6 +12,8 @@
 #include <sstream>
 #include <string>
 
+#include "temp_dir.hpp"
+
 namespace fs = std::filesystem;
 using qualify::matrix_market_data;
 using qualify::matrix_market_field;
@@ -20,26 +22,6 @@ using qualify::parse_matrix_market;
 using qualify::read_error;
 
 namespace {
-
-// A fresh directory under the system's temporary directory, removed at the end of the test.
-struct temp_dir {
-  fs::path path;
-  temp_dir() {
-    std::random_device seed;
-    path = fs::temp_directory_path() /
-           ("qualify_mm_test_" + std::to_string(seed()) + "_" + std::to_string(seed()));
-    fs::create_directories(path);
-  }
-  ~temp_dir() {
-    std::error_code ec;
-    fs::remove_all(path, ec);
-  }
-  fs::path write(const std::string& name, const std::string& text) const {
-    fs::path file = path / name;
-    std::ofstream(file, std::ios::binary) << text;
-    return file;
-  }
-};
 
 // Checks a malformed input: not ok, the error kind, the 1-based line, a word of the message.
 void check_malformed(const std::string& text, std::size_t line, const std::string& words) {
@@ -231,7 +213,7 @@ TEST_CASE("the writer's output reads back to the same matrix, bit for bit") {
     CHECK(dense_of(data) == dense);
   }
   SUBCASE("sparse, through a file") {
-    temp_dir dir;
+    qualify_test::temp_dir dir("qualify_mm_test_");
     Eigen::SparseMatrix<double> sparse = dense.sparseView();
     fs::path file = dir.path / "sparse.mtx";
     REQUIRE(qualify::write_matrix_market(file, sparse));
@@ -253,7 +235,7 @@ TEST_CASE("the writer's output reads back to the same matrix, bit for bit") {
     CHECK(empty.cols == 0);
   }
   SUBCASE("a write to a folder that does not exist reports failure") {
-    temp_dir dir;
+    qualify_test::temp_dir dir("qualify_mm_test_");
     CHECK_FALSE(qualify::write_matrix_market(dir.path / "missing" / "a.mtx", dense));
   }
 }
@@ -270,7 +252,7 @@ TEST_CASE("a file of several MiB, read in chunks, gives what was written") {
   std::string text = qualify::to_matrix_market(sparse);
   REQUIRE(text.size() > (std::size_t{3} << 20));
 
-  temp_dir dir;
+  qualify_test::temp_dir dir("qualify_mm_test_");
   fs::path file = dir.write("big.mtx", text);
   std::istringstream stream(text);
   for (const matrix_market_data& data :
@@ -425,7 +407,7 @@ TEST_CASE("only real, integer and pattern fields with general symmetry are accep
 }
 
 TEST_CASE("reading a path tells a missing file from a malformed one") {
-  temp_dir dir;
+  qualify_test::temp_dir dir("qualify_mm_test_");
   matrix_market_data missing = qualify::read_matrix_market(dir.path / "no_such.mtx");
   CHECK_FALSE(missing.ok);
   CHECK(missing.error == read_error::cannot_open);

@@ -4,13 +4,19 @@
 
 #include <fmt/core.h>
 
+#include <cerrno>
 #include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
 #include <map>
 #include <optional>
 #include <qualify/json.hpp>
 #include <qualify/report.hpp>
 #include <string>
 #include <string_view>
+#include <system_error>
 #include <utility>
 #include <vector>
 
@@ -65,6 +71,7 @@ class result {
   T& operator*() { return *value_; }
   const T& operator*() const { return *value_; }
   T* operator->() { return &*value_; }
+  const T* operator->() const { return &*value_; }
   const problem& error() const noexcept { return problem_; }
 
  private:
@@ -75,6 +82,23 @@ class result {
 /// A file name as messages show it: quoted, and '-' as standard input.
 inline std::string shown_name(std::string_view path) {
   return path == "-" ? std::string("<stdin>") : "'" + std::string(path) + "'";
+}
+
+/// Opens `path` for reading, in binary mode; '-' is standard input (`file` stays closed). The
+/// stream to read, or the problem (exit 66) naming the file and the reason.
+inline result<std::istream*> open_input(const std::string& path, std::ifstream& file) {
+  if (path == "-") return &std::cin;
+  const std::string shown = shown_name(path);
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec))
+    return problem{exit_code::no_input, fmt::format("cannot open {}: it is a directory", shown),
+                   path, std::nullopt};
+  file.open(path, std::ios::binary);
+  if (!file)
+    return problem{exit_code::no_input,
+                   fmt::format("cannot open {}: {}", shown, std::strerror(errno)), path,
+                   std::nullopt};
+  return &file;
 }
 
 /// Length of the valid UTF-8 sequence that starts at s[i], 0 when the bytes there are not

@@ -62,23 +62,13 @@ inline result<Eigen::MatrixXd> read_dense_jacobian(const std::string& path) {
 /// line when its content is malformed.
 inline result<qualify::mps_model> read_mps_model(const std::string& path) {
   const std::string shown = shown_name(path);
-  if (path != "-") {
-    std::error_code ec;
-    if (std::filesystem::is_directory(path, ec))
-      return problem{exit_code::no_input, fmt::format("cannot open {}: it is a directory", shown),
-                     path, std::nullopt};
-    std::ifstream probe(path);
-    if (!probe)
-      return problem{exit_code::no_input,
-                     fmt::format("cannot open {}: {}", shown, std::strerror(errno)), path,
-                     std::nullopt};
-  }
+  std::ifstream probe;  // 66 here; the reader opens the file itself
+  if (const auto opened = open_input(path, probe); !opened) return opened.error();
   qualify::mps_model model =
       path == "-" ? qualify::read_mps(std::cin) : qualify::read_mps_file(path);
   if (!model.ok())
     return problem{exit_code::data, fmt::format("{}: {}", shown, model.error), path,
-                   model.error_line ? std::optional<std::size_t>(model.error_line)
-                                    : std::nullopt};
+                   model.error_line ? std::optional<std::size_t>(model.error_line) : std::nullopt};
   return model;
 }
 
@@ -97,19 +87,9 @@ inline result<std::vector<std::string>> read_labels(const std::string& path,
                                                     const labels_options& options = {}) {
   const std::string shown = shown_name(path);
   std::ifstream file;
-  std::istream* in = &std::cin;
-  if (path != "-") {
-    std::error_code ec;
-    if (std::filesystem::is_directory(path, ec))
-      return problem{exit_code::no_input, fmt::format("cannot open {}: it is a directory", shown),
-                     path, std::nullopt};
-    file.open(path, std::ios::binary);
-    if (!file)
-      return problem{exit_code::no_input,
-                     fmt::format("cannot open {}: {}", shown, std::strerror(errno)), path,
-                     std::nullopt};
-    in = &file;
-  }
+  const auto opened = open_input(path, file);
+  if (!opened) return opened.error();
+  std::istream* in = *opened;
   const auto bad = [&](std::size_t line, std::string what) {
     return problem{exit_code::data, fmt::format("{}: line {}: {}", shown, line, what), path, line};
   };
