@@ -289,10 +289,13 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
   const Scalar parallel_tol = Scalar(options.parallel_tolerance.value_or(double(band * tau)));
   rep.relative_threshold = rep.threshold = double(tau);
 
+  // Gradients as columns, read once; norms and the QR then work on contiguous columns.
+  matrix<Scalar> unit;
+  transpose_into<Scalar>(jac, unit);
   vector<Scalar> norms(m);
   std::vector<Index> kept;  // local rows with a non-zero gradient
   for (Index i = 0; i < m; ++i) {
-    norms(i) = jac.row(i).stableNorm();
+    norms(i) = unit.col(i).stableNorm();
     if (double(norms(i)) <= options.zero_row_norm) {
       rep.zero_rows.push_back(to_global(i));
       rep.dependencies.push_back({to_global(i), {}, 0.0});
@@ -311,15 +314,17 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
     add_finding(rep.findings, severity::error, "zero_gradient",
                 "gradient is zero: the row can never be independent", rep.zero_rows, rep.names);
 
-  // Unit gradients as columns; only R of their QR is needed, so the factorisation runs in
-  // place and the Householder vectors are dropped with the copy.
+  // Unit gradients of the kept rows, packed to the left (c <= kept[c], so in place); only R of
+  // their QR is needed, so the factorisation runs in place and the Householder vectors are
+  // dropped with the storage.
   const Index p = std::min(n, k);
   matrix<Scalar> r_factor;
   {
-    matrix<Scalar> unit(n, k);
-    for (Index c = 0; c < k; ++c) unit.col(c) = jac.row(kept[c]).transpose() / norms(kept[c]);
-    Eigen::HouseholderQR<Eigen::Ref<matrix<Scalar>>> qr(unit);
-    r_factor = unit.topRows(p).template triangularView<Eigen::Upper>();
+    for (Index c = 0; c < k; ++c) unit.col(c) = unit.col(kept[c]) / norms(kept[c]);
+    Eigen::Ref<matrix<Scalar>> packed = unit.leftCols(k);
+    Eigen::HouseholderQR<Eigen::Ref<matrix<Scalar>>> qr(packed);
+    r_factor = packed.topRows(p).template triangularView<Eigen::Upper>();
+    unit.resize(0, 0);
   }
 
   rank_decision<Scalar> decision;

@@ -33,6 +33,19 @@ inline std::string describe_non_finite(long double v) {
   return std::isnan(v) ? "NaN" : (v > 0 ? "+Inf" : "-Inf");
 }
 
+/// dst = src^T, copied in square tiles so that both sides move a cache line at a time (a plain
+/// transposed assignment reads one of them with a stride of a whole column).
+template <class Scalar>
+void transpose_into(const Eigen::Ref<const matrix<Scalar>>& src, matrix<Scalar>& dst) {
+  constexpr Eigen::Index tile = 32;
+  dst.resize(src.cols(), src.rows());
+  for (Eigen::Index j0 = 0; j0 < src.cols(); j0 += tile)
+    for (Eigen::Index i0 = 0; i0 < src.rows(); i0 += tile) {
+      const Eigen::Index h = std::min(tile, src.rows() - i0), w = std::min(tile, src.cols() - j0);
+      dst.block(j0, i0, w, h) = src.block(i0, j0, h, w).transpose();
+    }
+}
+
 /// Inverts an upper-triangular matrix in place by recursive 2x2 blocking, so that almost
 /// all the work runs in triangular-times-dense products at matrix-multiply speed (about n^3/3
 /// flops). Entries below the diagonal are left untouched. The caller makes sure the diagonal
