@@ -1,12 +1,17 @@
-// qualify: a model evaluated at one point, the common input of the point checks (KKT and the
-// derivative-free parts of the others). Callback models are evaluated into this form.
+// qualify: models of minimise f(x) s.t. g_i(x) <= 0, h_j(x) = 0 — evaluated at one point
+// (model_at_point, the input of the point checks) or given by callbacks (callback_model).
 // SPDX-License-Identifier: MIT
 #pragma once
 
-#include <qualify/constraints.hpp>
-
+#include <Eigen/Dense>
+#include <cmath>
+#include <exception>
+#include <functional>
 #include <optional>
+#include <qualify/constraints.hpp>
 #include <string>
+#include <type_traits>
+#include <utility>
 #include <vector>
 
 namespace qualify {
@@ -29,5 +34,259 @@ struct model_at_point {
   /// The modeller's claim that f and every inequality are convex and every equality affine.
   bool convex_model = false;
 };
+
+/// A model given by callbacks, for the checks that evaluate it at points of their own
+/// choosing (Slater's phase one, the derivative check, check_kkt at a given x). Constraint i
+/// is g_i(x) <= 0 or h_i(x) = 0 as `types[i]` says; the size of `types` is the constraint
+/// count. Callbacks are any callables (lambdas, function objects, `std::function`); a user
+/// struct is adapted by `make_callback_model`. A callback that throws, returns a vector or
+/// matrix of the wrong size, or returns NaN or Inf gives the calling check an
+/// `invalid_input` report naming the callback and the entry; it is never propagated.
+struct callback_model {
+  using vector_fn = std::function<Eigen::VectorXd(const Eigen::VectorXd&)>;
+  using matrix_fn = std::function<Eigen::MatrixXd(const Eigen::VectorXd&)>;
+
+  Index variables = 0;
+  std::vector<constraint_type> types;
+  std::vector<constraint_kind> kinds;  ///< one per constraint
+  std::vector<std::string> labels;     ///< empty, or one per constraint
+  /// The modeller's claim that f and every inequality are convex and every equality affine.
+  bool convex_model = false;
+
+  std::function<double(const Eigen::VectorXd&)> objective;  ///< optional: f(x)
+  vector_fn objective_gradient;                             ///< grad f(x); optional for Slater
+  matrix_fn objective_hessian;                              ///< optional: n x n
+  vector_fn constraint_values;    ///< (g, h)(x) in row order; required when there are constraints
+  matrix_fn constraint_jacobian;  ///< rows = gradients; required when there are constraints
+  /// Optional: the n x n Hessian of constraint i at x.
+  std::function<Eigen::MatrixXd(const Eigen::VectorXd&, Index)> constraint_hessian;
+
+  Index constraints() const noexcept { return Index(types.size()); }
+};
+
+/// Empty when `model` is usable, else a message naming the field and the rule it breaks.
+inline std::string validate_model(const callback_model& model) {
+  const auto m = std::size_t(model.constraints());
+  if (model.variables < 1) return "callback_model.variables must be >= 1";
+  if (model.kinds.size() != m)
+    return "callback_model.kinds has " + std::to_string(model.kinds.size()) + " entries for " +
+           std::to_string(m) + " constraints (types)";
+  if (!model.labels.empty() && model.labels.size() != m)
+    return "callback_model.labels has " + std::to_string(model.labels.size()) + " entries for " +
+           std::to_string(m) + " constraints (types)";
+  if (m > 0 && !model.constraint_values)
+    return "callback_model.constraint_values is required when there are constraints";
+  if (m > 0 && !model.constraint_jacobian)
+    return "callback_model.constraint_jacobian is required when there are constraints";
+  return {};
+}
+
+/// What one evaluation of a callback model gave: `point` when `error` is empty, else the
+/// finding code (`callback_failed`, `callback_size`, `non_finite_entry`) and a message naming
+/// the callback and the entry.
+struct model_evaluation {
+  model_at_point point;
+  std::string code;
+  std::string error;
+  bool ok() const noexcept { return error.empty(); }
+};
+
+/// Which parts `evaluate_model` asks for; values and the Jacobian always.
+struct evaluation_request {
+  bool objective_gradient = true;
+  bool hessians = false;  ///< those the model provides
+};
+
+namespace detail {
+
+/// Runs a callback; a thrown exception becomes its message (callbacks are user code, and the
+/// checks never let their exceptions escape).
+template <class Fn>
+bool run_callback(const char* name, Fn&& fn, std::string& error) {
+#if defined(__cpp_exceptions) || defined(__EXCEPTIONS)
+  try {
+    fn();
+    return true;
+  } catch (const std::exception& e) {
+    error = std::string(name) + " threw: " + e.what();
+  } catch (...) {
+    error = std::string(name) + " threw an exception that is not a std::exception";
+  }
+  return false;
+#else
+  (void)name;
+  (void)error;
+  fn();
+  return true;
+#endif
+}
+
+/// Empty when `a` is rows x cols with finite entries, else the message.
+inline std::string check_callback_result(const char* name, const Eigen::MatrixXd& a, Index rows,
+                                         Index cols, const row_names& names, bool rows_are_named,
+                                         std::string& code) {
+  if (a.rows() != rows || a.cols() != cols) {
+    code = "callback_size";
+    return std::string(name) + " returned " + std::to_string(a.rows()) + " x " +
+           std::to_string(a.cols()) + ", expected " + std::to_string(rows) + " x " +
+           std::to_string(cols);
+  }
+  for (Index j = 0; j < a.cols(); ++j)
+    for (Index i = 0; i < a.rows(); ++i)
+      if (!std::isfinite(a(i, j))) {
+        code = "non_finite_entry";
+        std::string where = rows_are_named ? names(i) : "row " + std::to_string(i);
+        if (cols > 1) where += ", variable " + std::to_string(j);
+        return std::string(name) + " returned " + format_figure(a(i, j)) + " at " + where;
+      }
+  return {};
+}
+
+}  // namespace detail
+
+/// Evaluates `model` at `x` into a model_at_point, checking every callback's answer. The
+/// caller has validated the model (validate_model) and the size of x.
+inline model_evaluation evaluate_model(const callback_model& model, const Eigen::VectorXd& x,
+                                       const evaluation_request& request = {}) {
+  model_evaluation out;
+  model_at_point& p = out.point;
+  const Index n = model.variables, m = model.constraints();
+  const row_names names(model.labels);
+  p.x = x;
+  p.types = model.types;
+  p.kinds = model.kinds;
+  p.labels = model.labels;
+  p.convex_model = model.convex_model;
+  const auto fail = [&](std::string code, std::string message) {
+    out.code = std::move(code);
+    out.error = std::move(message);
+    return out;
+  };
+  const auto checked = [&](const char* name, const Eigen::MatrixXd& a, Index rows, Index cols,
+                           bool rows_are_named) {
+    std::string code;
+    std::string message =
+        detail::check_callback_result(name, a, rows, cols, names, rows_are_named, code);
+    if (!message.empty()) {
+      out.code = std::move(code);
+      out.error = std::move(message);
+    }
+    return out.error.empty();
+  };
+  std::string error;
+  if (m > 0) {
+    Eigen::MatrixXd values;
+    if (!detail::run_callback(
+            "constraint_values", [&] { values = model.constraint_values(x); }, error))
+      return fail("callback_failed", error);
+    if (!checked("constraint_values", values, m, 1, true)) return out;
+    p.values = values.col(0);
+    if (!detail::run_callback(
+            "constraint_jacobian", [&] { p.jacobian = model.constraint_jacobian(x); }, error))
+      return fail("callback_failed", error);
+    if (!checked("constraint_jacobian", p.jacobian, m, n, true)) return out;
+  } else {
+    p.values.resize(0);
+    p.jacobian.resize(0, n);
+  }
+  if (request.objective_gradient) {
+    if (!model.objective_gradient)
+      return fail("missing_callback", "callback_model.objective_gradient is required here");
+    Eigen::MatrixXd gradient;
+    if (!detail::run_callback(
+            "objective_gradient", [&] { gradient = model.objective_gradient(x); }, error))
+      return fail("callback_failed", error);
+    if (!checked("objective_gradient", gradient, n, 1, false)) return out;
+    p.objective_gradient = gradient.col(0);
+  }
+  if (request.hessians) {
+    if (model.objective_hessian) {
+      Eigen::MatrixXd h;
+      if (!detail::run_callback(
+              "objective_hessian", [&] { h = model.objective_hessian(x); }, error))
+        return fail("callback_failed", error);
+      if (!checked("objective_hessian", h, n, n, false)) return out;
+      p.objective_hessian = std::move(h);
+    }
+    if (model.constraint_hessian) {
+      p.hessians.resize(std::size_t(m));
+      for (Index i = 0; i < m; ++i) {
+        Eigen::MatrixXd h;
+        if (!detail::run_callback(
+                "constraint_hessian", [&] { h = model.constraint_hessian(x, i); }, error))
+          return fail("callback_failed", error + " (for " + names(i) + ")");
+        if (!checked("constraint_hessian", h, n, n, false)) {
+          out.error += " (for " + names(i) + ")";
+          return out;
+        }
+        p.hessians[std::size_t(i)] = std::move(h);
+      }
+    }
+  }
+  return out;
+}
+
+namespace detail {
+
+template <class T, class = void>
+struct has_objective : std::false_type {};
+template <class T>
+struct has_objective<T, std::void_t<decltype(std::declval<const T&>().objective(
+                            std::declval<const Eigen::VectorXd&>()))>> : std::true_type {};
+template <class T, class = void>
+struct has_objective_gradient : std::false_type {};
+template <class T>
+struct has_objective_gradient<T, std::void_t<decltype(std::declval<const T&>().objective_gradient(
+                                     std::declval<const Eigen::VectorXd&>()))>> : std::true_type {};
+template <class T, class = void>
+struct has_objective_hessian : std::false_type {};
+template <class T>
+struct has_objective_hessian<T, std::void_t<decltype(std::declval<const T&>().objective_hessian(
+                                    std::declval<const Eigen::VectorXd&>()))>> : std::true_type {};
+template <class T, class = void>
+struct has_constraint_hessian : std::false_type {};
+template <class T>
+struct has_constraint_hessian<T, std::void_t<decltype(std::declval<const T&>().constraint_hessian(
+                                     std::declval<const Eigen::VectorXd&>(), Index{}))>>
+    : std::true_type {};
+
+}  // namespace detail
+
+/// Adapts a user struct to a callback_model. `problem` must outlive the result (it is held by
+/// reference) and provide `variables()`, `types()`, `kinds()`, `constraint_values(x)` and
+/// `constraint_jacobian(x)` as const members; `objective(x)`, `objective_gradient(x)`,
+/// `objective_hessian(x)` and `constraint_hessian(x, i)` are used when the struct has them.
+template <class Problem>
+callback_model make_callback_model(const Problem& problem, std::vector<std::string> labels = {},
+                                   bool convex_model = false) {
+  callback_model model;
+  model.variables = Index(problem.variables());
+  model.types = problem.types();
+  model.kinds = problem.kinds();
+  model.labels = std::move(labels);
+  model.convex_model = convex_model;
+  const Problem* p = &problem;
+  model.constraint_values = [p](const Eigen::VectorXd& x) {
+    return Eigen::VectorXd(p->constraint_values(x));
+  };
+  model.constraint_jacobian = [p](const Eigen::VectorXd& x) {
+    return Eigen::MatrixXd(p->constraint_jacobian(x));
+  };
+  if constexpr (detail::has_objective<Problem>::value)
+    model.objective = [p](const Eigen::VectorXd& x) { return double(p->objective(x)); };
+  if constexpr (detail::has_objective_gradient<Problem>::value)
+    model.objective_gradient = [p](const Eigen::VectorXd& x) {
+      return Eigen::VectorXd(p->objective_gradient(x));
+    };
+  if constexpr (detail::has_objective_hessian<Problem>::value)
+    model.objective_hessian = [p](const Eigen::VectorXd& x) {
+      return Eigen::MatrixXd(p->objective_hessian(x));
+    };
+  if constexpr (detail::has_constraint_hessian<Problem>::value)
+    model.constraint_hessian = [p](const Eigen::VectorXd& x, Index i) {
+      return Eigen::MatrixXd(p->constraint_hessian(x, i));
+    };
+  return model;
+}
 
 }  // namespace qualify

@@ -5,6 +5,7 @@
 #include <qualify/version.hpp>
 #include <qualify/report.hpp>
 #include <qualify/constraints.hpp>
+#include <qualify/model.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/matrix_market.hpp>
