@@ -365,12 +365,10 @@ std::set<std::tuple<derivative_part, Index, Index, Index>> entries_with(
   return out;
 }
 
-/// Exact derivatives agree, and the error estimate covers the true error of each finite
-/// difference (the reference is AutoDiff, so d is that error) wherever that error could
-/// matter: rounding noise far below the tolerance may exceed it when the five values happen
-/// to cancel (one fourth difference is one sample of the noise). Returns how many did.
-int check_exact(const callback_model& model, const VectorXd& x,
-                derivative_check_options options = list_all()) {
+/// Exact derivatives agree, and the error estimate covers the true error of every finite
+/// difference (the reference is AutoDiff, so d is that error).
+void check_exact(const callback_model& model, const VectorXd& x,
+                 derivative_check_options options = list_all()) {
   const auto rep = check_derivatives(model, x, options);
   QUALIFY_CHECK_HOLDS(rep);
   CHECK(rep.parts.size() == 4);
@@ -378,16 +376,12 @@ int check_exact(const callback_model& model, const VectorXd& x,
   CHECK(rep.entries == n + m * n + n * n + m * n * n);
   CHECK(rep.agreeing == rep.entries);
   REQUIRE(Index(rep.worst.size()) == rep.entries);
-  int beyond_estimate = 0;
   for (const auto& e : rep.worst) {
     CAPTURE(e.name());
     CAPTURE(e.analytic);
     CAPTURE(e.finite_difference);
-    CAPTURE(e.error_estimate);
-    CHECK((e.error <= e.error_estimate || e.error <= 1e-2 * e.tolerance));
-    beyond_estimate += e.error > e.error_estimate;
+    CHECK(e.error <= e.error_estimate);
   }
-  return beyond_estimate;
 }
 
 }  // namespace
@@ -425,9 +419,9 @@ TEST_CASE("badly scaled variables (x_j ~ 1e6 and 1e-6) pass") {
   }
   SUBCASE("Moré, Garbow and Hillstrom (1981), problem 3 (Powell badly scaled), at x0 and x*") {
     check_exact(ad_model(mgh03{}), vec({0, 1}));
-    // f2 = exp(-x1) + exp(-x2) - 1.0001 is pure rounding noise along x2 at x* (exp(-x2) ~ 1e-4
-    // added to 1): one entry's error, 9e-13 against a tolerance of 1e-10, beats its estimate.
-    CHECK(check_exact(ad_model(mgh03{}), vec({1.098e-5, 9.106})) <= 1);
+    // At x*, f2 = exp(-x1) + exp(-x2) - 1.0001 is mostly rounding along x2 (exp(-x2) ~ 1e-4
+    // added to 1), noise that the size of f2 or of its terms does not show.
+    check_exact(ad_model(mgh03{}), vec({1.098e-5, 9.106}));
   }
   SUBCASE("functions on the variables' own scales: the step is reduced where x2 - h < 0") {
     const VectorXd x = vec({1e6, 1e-6});
@@ -456,7 +450,7 @@ TEST_CASE("strongly curved functions: the estimate covers the truncation error")
   const VectorXd x = vec({0.5, 0.3});
   derivative_check_options options = list_all();
   options.relative_step = 1e-2;
-  CHECK(check_exact(ad_model(curved{}), x, options) == 0);
+  check_exact(ad_model(curved{}), x, options);
   const auto rep = check_derivatives(ad_model(curved{}), x, options);
   for (const auto& part : rep.parts) CHECK(part.reduced_variables >= 1);
   // Without smaller steps the same entries are undecided, never judged wrong.
@@ -644,6 +638,20 @@ TEST_CASE("noisy values: a correct derivative within the noise is undecided, a w
   QUALIFY_CHECK_FAILS(wrong);
   CHECK(wrong.disagreeing == 1);
   CHECK(wrong.worst.front().name() == "d(objective)/dx[1]");
+  // Not told of the noise, the check sees it in the values along a line through x, and the
+  // correct derivatives are undecided, not judged wrong. The step reductions that the noise
+  // provokes stop at the resolution of x: every figure stays finite.
+  options.value_precision = derivative_check_options{}.value_precision;
+  options.step_reductions = 12;
+  model.objective_gradient = exact_gradient;
+  const auto unaware = check_derivatives(model, x, options);
+  QUALIFY_CHECK_VERDICT(unaware, verdict::undecided);
+  for (const auto& e : unaware.worst) {
+    CHECK(e.error <= e.error_estimate);
+    CHECK(std::isfinite(e.finite_difference));
+    CHECK(std::isfinite(e.error_estimate));
+    CHECK(e.step > 0);
+  }
 }
 
 TEST_CASE("a callback that fails at a displaced point is a finding, not a crash") {
@@ -711,6 +719,7 @@ TEST_CASE("bad input is invalid_input naming the entry") {
     };
     const double nan = std::numeric_limits<double>::quiet_NaN();
     bad([](auto& o) { o.relative_step = 0.0; }, "relative_step");
+    bad([](auto& o) { o.relative_step = 1e-13; }, "relative_step");
     bad([](auto& o) { o.relative_step = 1.5; }, "relative_step");
     bad([&](auto& o) { o.relative_step = nan; }, "relative_step");
     bad([](auto& o) { o.typical_magnitude = vec({1, 0, 1, 1}); }, "typical_magnitude(1)");

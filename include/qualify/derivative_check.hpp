@@ -73,7 +73,7 @@ struct derivative_check_options {
   /// central differences against the O(eps / h) rounding error (Nocedal and Wright, Numerical
   /// Optimization, 2nd ed., 2006, sec. 8.1; the scaling by max(|x_j|, typical_j) is Dennis and
   /// Schnabel, Numerical Methods for Unconstrained Optimization and Nonlinear Equations, 1983,
-  /// sec. 5.6, from memory). Relative, in (0, 1).
+  /// sec. 5.6, from memory). Relative, in [1e-12, 1).
   std::optional<double> relative_step;
   /// typical_j > 0, the size of x_j where x_j is near 0 (it sets the step and, through xs_j
   /// below, the floor of the scale). Empty: 1 for every variable; else one per variable.
@@ -84,8 +84,8 @@ struct derivative_check_options {
   /// all). So a disagreement is only reported at a step where the estimate holds (a first
   /// step across a singularity can fool it), and a strongly curved function, or a variable
   /// much smaller than its typical_j (x_j ~ 1e-6 with typical_j = 1), is differenced on its
-  /// own scale. Each entry keeps the step whose estimate e was smallest (common practice, no
-  /// source).
+  /// own scale. Each entry keeps the step whose estimate e was smallest; steps below the
+  /// resolution of x_j are not tried (common practice, no source).
   int step_reductions = 6;
   /// t = relative_tolerance * s, s = max(|a|, |f|, scale_floor * max(v / xs_j, c xs_j)),
   /// where xs_j = max(|x_j|, typical_j), v is the magnitude of F_q (below) and c the
@@ -101,16 +101,24 @@ struct derivative_check_options {
   double relative_tolerance = 1e-6;
   double scale_floor = 1e-2;  ///< see relative_tolerance; in [0, 1]
   /// ε_F: the relative accuracy of the callbacks' values. The rounding estimate of an entry
-  /// is 3 ε_F v / h, with v the larger of the largest |F_q| at the displaced points and
-  /// Σ_j |a_qj x_j| (the size of the terms F_q is made of, which cancel where F_q ≈ 0, as at
-  /// an active constraint): the extrapolated value (4 D(h/2) - D(h)) / 3 carries
-  /// (4 * 2 + 1) / 3 = 3 times the error ε_F v / h of D(h). Raise it for callbacks that lose
-  /// digits (inner iterative solves, interpolated tables).
+  /// is 3 max(ε_F v, δ) / h: the extrapolated value (4 D(h/2) - D(h)) / 3 carries
+  /// (4 * 2 + 1) / 3 = 3 times the error of D(h), which is (noise of one value) / h. v is the
+  /// larger of the largest |F_q| at the displaced points and Σ_j |a_qj x_j| (the size of the
+  /// terms F_q is made of, which cancel where F_q ≈ 0, as at an active constraint). δ is the
+  /// noise the values show themselves, which catches what ε_F v cannot see (terms constant
+  /// in x that cancel, an inner solve's tolerance): a quarter of the largest fourth
+  /// difference, F(x-h) - 4F(x-h/2) + 6F(x) - 4F(x+h/2) + F(x+h) of the entry's own values
+  /// and five more along a short line through x (the noise of one value enters a fourth
+  /// difference up to 16 times, typically about 5 times; noise from high differences: Moré
+  /// and Wild, Estimating computational noise, SIAM J. Sci. Comput. 33, 2011, from memory).
+  /// A value that does not move along x_j has no noise. Raise ε_F for callbacks known to lose
+  /// digits.
   double value_precision = 4 * std::numeric_limits<double>::epsilon();
   /// e = estimate_safety * (truncation estimate + rounding estimate): the truncation
-  /// estimate |D(h) - D(h/2)| / 3 is Richardson's estimate of the error of D(h/2) and an
-  /// overestimate for the extrapolated value reported; the factor covers steps outside the
-  /// asymptotic range (common practice, no source). At least 1.
+  /// estimate |D(h) - D(h/2)| / 3 is Richardson's estimate of the error of D(h/2), whose
+  /// error is O(h^2) (L. F. Richardson, Phil. Trans. R. Soc. A 210, 1911, from memory), and
+  /// an overestimate for the extrapolated value reported, whose error is O(h^4); the factor
+  /// covers steps outside the asymptotic range (common practice, no source). At least 1.
   double estimate_safety = 2;
   /// How many of the worst entries the report lists (all are counted).
   int max_listed = 10;
@@ -118,8 +126,8 @@ struct derivative_check_options {
   /// Empty when valid, else a message naming the field and its rule.
   std::string validate() const {
     if (relative_step &&
-        !(std::isfinite(*relative_step) && *relative_step > 0 && *relative_step < 1))
-      return "derivative_check_options.relative_step must be in (0, 1)";
+        !(std::isfinite(*relative_step) && *relative_step >= 1e-12 && *relative_step < 1))
+      return "derivative_check_options.relative_step must be in [1e-12, 1)";
     for (Index j = 0; j < typical_magnitude.size(); ++j)
       if (!(std::isfinite(typical_magnitude(j)) && typical_magnitude(j) > 0))
         return "derivative_check_options.typical_magnitude(" + std::to_string(j) +
@@ -142,19 +150,19 @@ struct derivative_check_options {
 /// One compared entry: d(label)/dx[variable], or d2(label)/dx[hessian_row]dx[variable].
 struct derivative_entry {
   derivative_part part = derivative_part::objective_gradient;
-  Index row = -1;                ///< constraint row; -1 for the objective
-  std::string label;             ///< the row's label ("row N" without one), or "objective"
-  Index variable = 0;            ///< j: the variable stepped (the Jacobian's or Hessian's column)
-  Index hessian_row = -1;        ///< k of a Hessian entry H(k, j); -1 for first derivatives
-  double analytic = 0;           ///< a, the model's value
-  double finite_difference = 0;  ///< f, extrapolated from the central differences at h and h/2
-  double error = 0;              ///< d = |a - f|
-  double truncation_estimate = 0;
-  double rounding_estimate = 0;
-  double error_estimate = 0;              ///< e = estimate_safety * (truncation + rounding)
-  double tolerance = 0;                   ///< t = relative_tolerance * scale
-  double scale = 0;                       ///< s
-  double step = 0;                        ///< h (the differences were taken at h and h/2)
+  Index row = -1;                  ///< constraint row; -1 for the objective
+  std::string label;               ///< the row's label ("row N" without one), or "objective"
+  Index variable = 0;              ///< j: the variable stepped (the Jacobian's or Hessian's column)
+  Index hessian_row = -1;          ///< k of a Hessian entry H(k, j); -1 for first derivatives
+  double analytic = 0;             ///< a, the model's value
+  double finite_difference = 0;    ///< f, extrapolated from the central differences at h and h/2
+  double error = 0;                ///< d = |a - f|
+  double truncation_estimate = 0;  ///< |D(h) - D(h/2)| / 3
+  double rounding_estimate = 0;    ///< 3 max(ε_F v, δ) / h
+  double error_estimate = 0;       ///< e = estimate_safety * (truncation + rounding)
+  double tolerance = 0;            ///< t = relative_tolerance * scale
+  double scale = 0;                ///< s
+  double step = 0;                 ///< h (the differences were taken at h and h/2)
   verdict result = verdict::not_checked;  ///< holds, fails or undecided for this entry
 
   /// "d(cap)/dx[2]" or "d2(objective)/dx[0]dx[2]".
@@ -285,6 +293,7 @@ class part_checker {
         row_failed_(std::size_t(report.constraints), false) {
     summary_.part = target.part;
     summary_.entries = target.analytic.rows() * x.size();
+    line_noise_ = line_noise();
   }
 
   derivative_part_summary run() {
@@ -312,6 +321,36 @@ class part_checker {
 
  private:
   static constexpr double reduction = 16;
+
+  /// The values' noise as a line through x shows it (the idea of Moré and Wild, Estimating
+  /// computational noise, SIAM J. Sci. Comput. 33, 2011, from memory): F at x + k s,
+  /// k = -4..4, s_j = sqrt(eps) |x_j| (typical_j where x_j = 0), gives five fourth
+  /// differences per value; a quarter of the largest. Several samples, so that one chance
+  /// cancellation does not hide the noise; a step so short that a smooth function's own
+  /// fourth difference, s^4 F^(4), stays far below rounding while the values still move by
+  /// many units in the last place. Zero when an evaluation fails (then each entry's own five
+  /// values and eps_F v remain).
+  Eigen::VectorXd line_noise() {
+    const Index p = target_.analytic.rows();
+    Eigen::VectorXd s(x_.size());
+    for (Index j = 0; j < x_.size(); ++j)
+      s(j) = std::sqrt(std::numeric_limits<double>::epsilon()) *
+             (x_(j) != 0 ? std::abs(x_(j)) : xs_(j));
+    std::vector<Eigen::VectorXd> f(9);
+    f[4] = target_.center;
+    std::string message;
+    for (int k = -4; k <= 4; ++k) {
+      if (k == 0) continue;
+      ++report_.evaluations;
+      if (!target_.evaluate(x_ + double(k) * s, f[std::size_t(k + 4)], message).empty())
+        return Eigen::VectorXd::Zero(p);
+    }
+    Eigen::VectorXd noise = Eigen::VectorXd::Zero(p);
+    for (std::size_t c = 2; c <= 6; ++c)
+      noise = noise.cwiseMax(
+          (f[c - 2] - 4 * f[c - 1] + 6 * f[c] - 4 * f[c + 1] + f[c + 2]).cwiseAbs() / 4);
+    return noise;
+  }
 
   difference_try differences(Index j, double h) {
     difference_try out;
@@ -344,8 +383,14 @@ class part_checker {
     // F(x-h) - 4 F(x-h/2) + 6 F(x) - 4 F(x+h/2) + F(x+h) is (h/2)^4 F^(4) plus the noise of
     // one value times at most 16, typically about 5 (weights 1, 4, 6, 4, 1): a quarter of it
     // estimates that noise. It catches what eps_F v misses: terms constant in x that cancel.
+    const Eigen::VectorXd& center = target_.center;
+    const Eigen::VectorXd own =
+        ((plus + minus) + 6 * center - 4 * (half_plus + half_minus)).cwiseAbs() / 4;
+    // Noise enters only values that change: one that stays put along x_j differences exactly.
+    const Eigen::ArrayXd moved = (plus - center).cwiseAbs() + (minus - center).cwiseAbs() +
+                                 (half_plus - center).cwiseAbs() + (half_minus - center).cwiseAbs();
     const Eigen::VectorXd delta =
-        ((plus + minus) + 6 * target_.center - 4 * (half_plus + half_minus)).cwiseAbs() / 4;
+        own.cwiseMax((moved > 0).select(line_noise_.array(), 0.0).matrix());
     out.noise = 3 * delta / (wide / 2);
     // F(x+h) + F(x-h) - F(x+h/2) - F(x-h/2) = (3/4) h^2 F'' + O(h^4), with 4 values' noise.
     const Eigen::ArrayXd second =
@@ -378,6 +423,7 @@ class part_checker {
     const double first_step = relative_step_ * xs_(j);
     double h = first_step;
     for (int attempt = 0; attempt <= options_.step_reductions; ++attempt, h /= reduction) {
+      if (!((x_(j) + h / 2) - (x_(j) - h / 2) > 0)) break;  // below the resolution of x_j
       difference_try t = differences(j, h);
       if (t.failed) {
         failures.push_back(std::move(t));
@@ -502,7 +548,8 @@ class part_checker {
   double relative_step_;
   derivative_check_report& report_;
   Index m_;
-  Eigen::VectorXd term_scale_;  ///< sum_j |a_qj| xs_j
+  Eigen::VectorXd term_scale_;  ///< sum_j |a_qj x_j|
+  Eigen::VectorXd line_noise_;  ///< the values' noise along a line through x
   std::vector<bool> row_failed_;
   derivative_part_summary summary_;
   std::size_t failed_findings_ = 0, reduced_findings_ = 0;
@@ -539,7 +586,8 @@ inline derivative_check_report invalid_derivative_check(derivative_check_report 
 /// smaller step; when every step fails, a `displaced_point_failed` finding names the
 /// callback, the variable, the steps and the callback's message, and that variable's entries
 /// count as not evaluated (so the verdict is at best undecided). Costs 4 evaluations of each
-/// differenced callback per variable and step tried.
+/// differenced callback per variable and step tried, plus 9 (x and the noise line); holds the
+/// model's derivatives of each part (constraint Hessians as one (m n) x n matrix).
 inline derivative_check_report check_derivatives(const callback_model& model,
                                                  const Eigen::VectorXd& x,
                                                  const derivative_check_options& options = {}) {
