@@ -104,13 +104,6 @@ callback_model ad_model(const P& p) {
   return model;
 }
 
-VectorXd vec(std::initializer_list<double> v) {
-  VectorXd out(Index(v.size()));
-  Index i = 0;
-  for (double e : v) out(i++) = e;
-  return out;
-}
-
 const auto ineq = constraint_type::inequality;
 const auto eq = constraint_type::equality;
 const auto nonlinear = constraint_kind::nonlinear;
@@ -388,43 +381,43 @@ void check_exact(const callback_model& model, const VectorXd& x,
 
 TEST_CASE("exact derivatives agree on published test problems, within an honest estimate") {
   SUBCASE("Hock and Schittkowski (1981), problem 71, at x0 and x*") {
-    check_exact(ad_model(hs071{}), vec({1, 5, 5, 1}));
-    check_exact(ad_model(hs071{}), vec({1, 4.7429994, 3.8211503, 1.3794082}));
+    check_exact(ad_model(hs071{}), VectorXd{{1, 5, 5, 1}});
+    check_exact(ad_model(hs071{}), VectorXd{{1, 4.7429994, 3.8211503, 1.3794082}});
   }
   SUBCASE("Hock and Schittkowski (1981), problem 43, at x0 and x*") {
-    check_exact(ad_model(hs043{}), vec({0, 0, 0, 0}));
-    check_exact(ad_model(hs043{}), vec({0, 1, 2, -1}));
+    check_exact(ad_model(hs043{}), VectorXd{{0, 0, 0, 0}});
+    check_exact(ad_model(hs043{}), VectorXd{{0, 1, 2, -1}});
   }
   SUBCASE("Hock and Schittkowski (1981), problem 40, at x0 and x*") {
-    check_exact(ad_model(hs040{}), vec({0.8, 0.8, 0.8, 0.8}));
-    check_exact(ad_model(hs040{}), vec({std::pow(2, -1.0 / 3), std::pow(2, -0.5),
-                                        std::pow(2, -11.0 / 12), std::pow(2, -0.25)}));
+    check_exact(ad_model(hs040{}), VectorXd{{0.8, 0.8, 0.8, 0.8}});
+    check_exact(ad_model(hs040{}), VectorXd{{std::pow(2, -1.0 / 3), std::pow(2, -0.5),
+                                             std::pow(2, -11.0 / 12), std::pow(2, -0.25)}});
   }
   SUBCASE("Hock and Schittkowski (1981), problem 7, at x0 and x*") {
-    check_exact(ad_model(hs007{}), vec({2, 2}));
-    check_exact(ad_model(hs007{}), vec({0, std::sqrt(3.0)}));
+    check_exact(ad_model(hs007{}), VectorXd{{2, 2}});
+    check_exact(ad_model(hs007{}), VectorXd{{0, std::sqrt(3.0)}});
   }
   SUBCASE("Moré, Garbow and Hillstrom (1981), problems 1 and 7, at x0 and x*") {
-    check_exact(ad_model(mgh01{}), vec({-1.2, 1}));
-    check_exact(ad_model(mgh01{}), vec({1, 1}));
-    check_exact(ad_model(mgh07{}), vec({-1, 0, 0}));
-    check_exact(ad_model(mgh07{}), vec({1, 0, 0}));
+    check_exact(ad_model(mgh01{}), VectorXd{{-1.2, 1}});
+    check_exact(ad_model(mgh01{}), VectorXd{{1, 1}});
+    check_exact(ad_model(mgh07{}), VectorXd{{-1, 0, 0}});
+    check_exact(ad_model(mgh07{}), VectorXd{{1, 0, 0}});
   }
 }
 
 TEST_CASE("badly scaled variables (x_j ~ 1e6 and 1e-6) pass") {
   SUBCASE("Moré, Garbow and Hillstrom (1981), problem 4 (Brown badly scaled), at x0 and x*") {
-    check_exact(ad_model(mgh04{}), vec({1, 1}));
-    check_exact(ad_model(mgh04{}), vec({1e6, 2e-6}));
+    check_exact(ad_model(mgh04{}), VectorXd{{1, 1}});
+    check_exact(ad_model(mgh04{}), VectorXd{{1e6, 2e-6}});
   }
   SUBCASE("Moré, Garbow and Hillstrom (1981), problem 3 (Powell badly scaled), at x0 and x*") {
-    check_exact(ad_model(mgh03{}), vec({0, 1}));
+    check_exact(ad_model(mgh03{}), VectorXd{{0, 1}});
     // At x*, f2 = exp(-x1) + exp(-x2) - 1.0001 is mostly rounding along x2 (exp(-x2) ~ 1e-4
     // added to 1), noise that the size of f2 or of its terms does not show.
-    check_exact(ad_model(mgh03{}), vec({1.098e-5, 9.106}));
+    check_exact(ad_model(mgh03{}), VectorXd{{1.098e-5, 9.106}});
   }
   SUBCASE("functions on the variables' own scales: the step is reduced where x2 - h < 0") {
-    const VectorXd x = vec({1e6, 1e-6});
+    const VectorXd x = VectorXd{{1e6, 1e-6}};
     check_exact(ad_model(scaled_plant{}), x);
     const auto rep = check_derivatives(ad_model(scaled_plant{}), x);
     QUALIFY_CHECK_HOLDS(rep);
@@ -437,7 +430,7 @@ TEST_CASE("badly scaled variables (x_j ~ 1e6 and 1e-6) pass") {
     CHECK(named);
     // Given the variables' typical sizes, the first step already fits.
     auto options = list_all();
-    options.typical_magnitude = vec({1e6, 1e-6});
+    options.typical_magnitude = VectorXd{{1e6, 1e-6}};
     const auto typed = check_derivatives(ad_model(scaled_plant{}), x, options);
     QUALIFY_CHECK_HOLDS(typed);
     for (const auto& part : typed.parts) CHECK(part.reduced_variables == 0);
@@ -447,7 +440,7 @@ TEST_CASE("badly scaled variables (x_j ~ 1e6 and 1e-6) pass") {
 
 TEST_CASE("strongly curved functions: the estimate covers the truncation error") {
   // exp(40 x1) and sin(60 x2) at x = (0.5, 0.3), from a deliberately large first step.
-  const VectorXd x = vec({0.5, 0.3});
+  const VectorXd x = VectorXd{{0.5, 0.3}};
   derivative_check_options options = list_all();
   options.relative_step = 1e-2;
   check_exact(ad_model(curved{}), x, options);
@@ -463,7 +456,7 @@ TEST_CASE("strongly curved functions: the estimate covers the truncation error")
 
 TEST_CASE("a deliberately wrong Jacobian entry is found and named") {
   // Hock and Schittkowski (1981), problem 71 at x0 = (1, 5, 5, 1); the reference is AutoDiff.
-  const VectorXd x = vec({1, 5, 5, 1});
+  const VectorXd x = VectorXd{{1, 5, 5, 1}};
   callback_model model = ad_model(hs071{});
   const auto exact = model.constraint_jacobian;
   for (double factor : {2.0, -1.0, 1.0 + 1e-4}) {
@@ -509,10 +502,10 @@ TEST_CASE("a deliberately wrong Jacobian entry is found and named") {
 
 TEST_CASE("a sign error in a gradient entry is found and named") {
   // Hock and Schittkowski (1981), problem 43 at x* = (0, 1, 2, -1): grad f = (-5, -3, -13, 5).
-  const VectorXd x = vec({0, 1, 2, -1});
+  const VectorXd x = VectorXd{{0, 1, 2, -1}};
   callback_model model = ad_model(hs043{});
   const auto exact = model.objective_gradient;
-  CHECK(exact(x).isApprox(vec({-5, -3, -13, 5})));
+  CHECK(exact(x).isApprox(VectorXd{{-5, -3, -13, 5}}));
   model.objective_gradient = [exact](const VectorXd& y) {
     VectorXd g = exact(y);
     g(3) = -g(3);
@@ -541,7 +534,7 @@ TEST_CASE("a transposed Hessian block is found entry by entry") {
   // Hock and Schittkowski (1981), problem 71 at x0 = (1, 5, 5, 1). The objective Hessian's
   // block B = H[0:2, 2:4] = [[x4, 2 x1 + x2 + x3], [0, x1]] is not symmetric, so writing B^T
   // there (and B below, keeping H symmetric) puts wrong values at (0,3), (1,2), (2,1), (3,0).
-  const VectorXd x = vec({1, 5, 5, 1});
+  const VectorXd x = VectorXd{{1, 5, 5, 1}};
   callback_model model = ad_model(hs071{});
   const auto exact = model.objective_hessian;
   model.objective_hessian = [exact](const VectorXd& y) {
@@ -564,7 +557,7 @@ TEST_CASE("a transposed Hessian block is found entry by entry") {
 
 TEST_CASE("a missing factor 2 is found on the whole row and in the constraint Hessian") {
   // Hock and Schittkowski (1981), problem 71: d(sum x_i^2)/dx_j written x_j instead of 2 x_j.
-  const VectorXd x = vec({1, 4.7429994, 3.8211503, 1.3794082});
+  const VectorXd x = VectorXd{{1, 4.7429994, 3.8211503, 1.3794082}};
   callback_model model = ad_model(hs071{});
   const auto exact = model.constraint_jacobian;
   model.constraint_jacobian = [exact](const VectorXd& y) {
@@ -622,7 +615,7 @@ TEST_CASE("noisy values: a correct derivative within the noise is undecided, a w
   options.constraint_jacobian = derivative_selection::off;
   options.objective_hessian = derivative_selection::off;
   options.constraint_hessians = derivative_selection::off;
-  const VectorXd x = vec({1, 5, 5, 1});
+  const VectorXd x = VectorXd{{1, 5, 5, 1}};
   const auto rep = check_derivatives(model, x, options);
   QUALIFY_CHECK_VERDICT(rep, verdict::undecided);
   CHECK(rep.undecided == 4);
@@ -656,7 +649,7 @@ TEST_CASE("noisy values: a correct derivative within the noise is undecided, a w
 
 TEST_CASE("a callback that fails at a displaced point is a finding, not a crash") {
   // Hock and Schittkowski (1981), problem 71 at x0; constraint_values refuses any x2 but x0's.
-  const VectorXd x = vec({1, 5, 5, 1});
+  const VectorXd x = VectorXd{{1, 5, 5, 1}};
   callback_model model = ad_model(hs071{});
   const auto exact = model.constraint_values;
   SUBCASE("throws") {
@@ -694,18 +687,18 @@ TEST_CASE("a callback that fails at a displaced point is a finding, not a crash"
 
 TEST_CASE("bad input is invalid_input naming the entry") {
   const callback_model model = ad_model(hs071{});
-  const VectorXd x = vec({1, 5, 5, 1});
+  const VectorXd x = VectorXd{{1, 5, 5, 1}};
   const auto code_of = [](const derivative_check_report& rep) {
     return rep.findings.empty() ? std::string() : rep.findings.back().code;
   };
   SUBCASE("x of the wrong size, or with NaN or Inf") {
-    auto rep = check_derivatives(model, vec({1, 5, 5}));
+    auto rep = check_derivatives(model, VectorXd{{1, 5, 5}});
     QUALIFY_CHECK_VERDICT(rep, verdict::invalid_input);
     CHECK(code_of(rep) == "dimension_mismatch");
-    rep = check_derivatives(model, vec({1, std::numeric_limits<double>::quiet_NaN(), 5, 1}));
+    rep = check_derivatives(model, VectorXd{{1, std::numeric_limits<double>::quiet_NaN(), 5, 1}});
     CHECK(code_of(rep) == "non_finite_entry");
     CHECK(rep.message.find("x[1] is NaN") != std::string::npos);
-    rep = check_derivatives(model, vec({1, 5, 5, -std::numeric_limits<double>::infinity()}));
+    rep = check_derivatives(model, VectorXd{{1, 5, 5, -std::numeric_limits<double>::infinity()}});
     CHECK(rep.message.find("x[3] is -Inf") != std::string::npos);
   }
   SUBCASE("bad options name the field") {
@@ -722,8 +715,8 @@ TEST_CASE("bad input is invalid_input naming the entry") {
     bad([](auto& o) { o.relative_step = 1e-13; }, "relative_step");
     bad([](auto& o) { o.relative_step = 1.5; }, "relative_step");
     bad([&](auto& o) { o.relative_step = nan; }, "relative_step");
-    bad([](auto& o) { o.typical_magnitude = vec({1, 0, 1, 1}); }, "typical_magnitude(1)");
-    bad([](auto& o) { o.typical_magnitude = vec({1, 1}); }, "typical_magnitude has 2 entries");
+    bad([](auto& o) { o.typical_magnitude = VectorXd{{1, 0, 1, 1}}; }, "typical_magnitude(1)");
+    bad([](auto& o) { o.typical_magnitude = VectorXd{{1, 1}}; }, "typical_magnitude has 2 entries");
     bad([](auto& o) { o.step_reductions = -1; }, "step_reductions");
     bad([](auto& o) { o.step_reductions = 13; }, "step_reductions");
     bad([](auto& o) { o.relative_tolerance = 0; }, "relative_tolerance");
@@ -765,23 +758,23 @@ TEST_CASE("bad input is invalid_input naming the entry") {
     bare.variables = 2;
     bare.objective_gradient = [](const VectorXd& y) { return VectorXd(2 * y); };
     // Nothing to compare: no objective value, no constraints, no Hessians.
-    auto rep = check_derivatives(bare, vec({1, 2}));
+    auto rep = check_derivatives(bare, VectorXd{{1, 2}});
     QUALIFY_CHECK_VERDICT(rep, verdict::invalid_input);
     CHECK(code_of(rep) == "missing_callback");
     CHECK(rep.message.find("nothing to check") != std::string::npos);
     // Asked for explicitly: the part is named.
     derivative_check_options options;
     options.objective_gradient = derivative_selection::required;
-    rep = check_derivatives(bare, vec({1, 2}), options);
+    rep = check_derivatives(bare, VectorXd{{1, 2}}, options);
     CHECK(code_of(rep) == "missing_callback");
     CHECK(rep.message.find("objective_gradient is required") != std::string::npos);
     options = {};
     options.constraint_jacobian = derivative_selection::required;
-    rep = check_derivatives(bare, vec({1, 2}), options);
+    rep = check_derivatives(bare, VectorXd{{1, 2}}, options);
     CHECK(rep.message.find("constraint_jacobian is required") != std::string::npos);
     // With the objective value, the gradient is checked and the Hessian noted as skipped.
     bare.objective = [](const VectorXd& y) { return y.squaredNorm(); };
-    rep = check_derivatives(bare, vec({1, 2}));
+    rep = check_derivatives(bare, VectorXd{{1, 2}});
     QUALIFY_CHECK_HOLDS(rep);
     CHECK(rep.parts.size() == 1);
     CHECK(rep.findings.front().code == "part_not_checked");
@@ -801,7 +794,7 @@ TEST_CASE("text and JSON forms of a derivative check") {
     j(0, 0) *= 2;
     return j;
   };
-  const auto rep = check_derivatives(model, vec({2, 2}));
+  const auto rep = check_derivatives(model, VectorXd{{2, 2}});
   const std::string brief = fmt::format("{}", rep), full = fmt::format("{:f}", rep);
   CHECK(brief.find('\n') == std::string::npos);
   CHECK(brief == rep.message + " [" + std::to_string(rep.findings.size()) + " findings]");

@@ -258,8 +258,8 @@ inline value_position position_of(derivative_part part, Index q, Index m) {
 struct difference_try {
   Eigen::VectorXd value;       ///< (4 D(h/2) - D(h)) / 3
   Eigen::VectorXd truncation;  ///< |D(h) - D(h/2)| / 3
-  Eigen::VectorXd rounding;    ///< 3 eps_F v / h
-  Eigen::VectorXd noise;       ///< 3 delta / h, delta the noise the fourth difference shows
+  Eigen::VectorXd rounding;    ///< 3 max(eps_F v, the line's noise) / h
+  Eigen::VectorXd noise;       ///< 3 (the noise of the entry's own five values) / h
   Eigen::VectorXd magnitude;   ///< v
   Eigen::VectorXd curvature;   ///< |d2 F_q / dx_j^2|, its rounding noise taken off
   double step = 0;
@@ -293,10 +293,10 @@ class part_checker {
         row_failed_(std::size_t(report.constraints), false) {
     summary_.part = target.part;
     summary_.entries = target.analytic.rows() * x.size();
-    line_noise_ = line_noise();
   }
 
   derivative_part_summary run() {
+    line_noise_ = line_noise();
     for (Index j = 0; j < x_.size(); ++j) check_variable(j);
     const auto unlisted = [&](std::size_t count, severity level, const char* code) {
       const std::size_t limit = std::size_t(options_.max_listed);
@@ -378,24 +378,24 @@ class part_checker {
                         .cwiseMax(half_plus.cwiseAbs())
                         .cwiseMax(half_minus.cwiseAbs())
                         .cwiseMax(term_scale_);
-    out.rounding = 3 * options_.value_precision * out.magnitude / (wide / 2);
-    // The noise of the values as the five points show it: the fourth difference
-    // F(x-h) - 4 F(x-h/2) + 6 F(x) - 4 F(x+h/2) + F(x+h) is (h/2)^4 F^(4) plus the noise of
-    // one value times at most 16, typically about 5 (weights 1, 4, 6, 4, 1): a quarter of it
-    // estimates that noise. It catches what eps_F v misses: terms constant in x that cancel.
-    const Eigen::VectorXd& center = target_.center;
-    const Eigen::VectorXd own =
-        ((plus + minus) + 6 * center - 4 * (half_plus + half_minus)).cwiseAbs() / 4;
     // Noise enters only values that change: one that stays put along x_j differences exactly.
+    const Eigen::VectorXd& center = target_.center;
     const Eigen::ArrayXd moved = (plus - center).cwiseAbs() + (minus - center).cwiseAbs() +
                                  (half_plus - center).cwiseAbs() + (half_minus - center).cwiseAbs();
-    const Eigen::VectorXd delta =
-        own.cwiseMax((moved > 0).select(line_noise_.array(), 0.0).matrix());
-    out.noise = 3 * delta / (wide / 2);
+    const Eigen::VectorXd value_noise =
+        (options_.value_precision * out.magnitude)
+            .cwiseMax((moved > 0).select(line_noise_.array(), 0.0).matrix());
+    out.rounding = 3 * value_noise / (wide / 2);
+    // The entry's own five values: their fourth difference F(x-h) - 4 F(x-h/2) + 6 F(x)
+    // - 4 F(x+h/2) + F(x+h) is (h/2)^4 F^(4) plus the noise of one value times at most 16,
+    // typically about 5 (weights 1, 4, 6, 4, 1); a quarter of it. It enters the estimate but
+    // not the choice of a smaller step, since at a large step it is mostly F^(4).
+    const Eigen::VectorXd own =
+        ((plus + minus) + 6 * center - 4 * (half_plus + half_minus)).cwiseAbs() / 4;
+    out.noise = 3 * own / (wide / 2);
     // F(x+h) + F(x-h) - F(x+h/2) - F(x-h/2) = (3/4) h^2 F'' + O(h^4), with 4 values' noise.
-    const Eigen::ArrayXd second =
-        ((plus + minus) - (half_plus + half_minus)).array().abs() -
-        4 * (options_.value_precision * out.magnitude).cwiseMax(delta).array();
+    const Eigen::ArrayXd second = ((plus + minus) - (half_plus + half_minus)).array().abs() -
+                                  4 * value_noise.cwiseMax(own).array();
     out.curvature = second.max(0) / (0.75 * (wide / 2) * (wide / 2));
     return out;
   }
