@@ -694,55 +694,39 @@ inline derivative_check_report check_derivatives(const callback_model& model,
     xs(j) = std::max(xs(j), options.typical_magnitude.size() ? options.typical_magnitude(j) : 1.0);
 
   // The callbacks differenced, each evaluated and checked at displaced points.
-  const auto evaluator = [&](const char* name, Index rows, Index cols, bool rows_are_named,
-                             auto call) {
-    return [&rep, name, rows, cols, rows_are_named, call](
-               const Eigen::VectorXd& y, Eigen::VectorXd& out, std::string& error) {
+  std::vector<detail::differenced_callback> targets;
+  const auto difference = [&](derivative_part part, const char* name, Eigen::MatrixXd analytic,
+                              Index rows, Index cols, bool rows_are_named, auto call) {
+    auto evaluate = [&rep, name, rows, cols, rows_are_named, call](
+                        const Eigen::VectorXd& y, Eigen::VectorXd& out, std::string& error) {
       Eigen::MatrixXd values;
       std::string code = detail::checked_call(
           name, [&] { return call(y); }, values, rows, cols, rep.names, rows_are_named, error);
       if (code.empty()) out = Eigen::Map<const Eigen::VectorXd>(values.data(), values.size());
       return code;
     };
+    targets.push_back({part, name, std::move(analytic), std::move(evaluate), {}});
   };
-  std::vector<detail::differenced_callback> targets;
   if (check[0])
-    targets.push_back(
-        {derivative_part::objective_gradient,
-         "objective",
-         at_x.point.objective_gradient.transpose(),
-         evaluator("objective", 1, 1, false,
-                   [&model](const Eigen::VectorXd& y) {
-                     return Eigen::MatrixXd::Constant(1, 1, model.objective(y)).eval();
-                   }),
-         {}});
+    difference(derivative_part::objective_gradient, "objective",
+               at_x.point.objective_gradient.transpose(), 1, 1, false,
+               [&model](const Eigen::VectorXd& y) {
+                 return Eigen::MatrixXd::Constant(1, 1, model.objective(y)).eval();
+               });
   if (check[1])
-    targets.push_back({derivative_part::constraint_jacobian,
-                       "constraint_values",
-                       at_x.point.jacobian,
-                       evaluator("constraint_values", m, 1, true,
-                                 [&model](const Eigen::VectorXd& y) {
-                                   return Eigen::MatrixXd(model.constraint_values(y));
-                                 }),
-                       {}});
+    difference(
+        derivative_part::constraint_jacobian, "constraint_values", at_x.point.jacobian, m, 1, true,
+        [&model](const Eigen::VectorXd& y) { return Eigen::MatrixXd(model.constraint_values(y)); });
   if (check[2])
-    targets.push_back({derivative_part::objective_hessian,
-                       "objective_gradient",
-                       objective_hessian,
-                       evaluator("objective_gradient", n, 1, false,
-                                 [&model](const Eigen::VectorXd& y) {
-                                   return Eigen::MatrixXd(model.objective_gradient(y));
-                                 }),
-                       {}});
+    difference(derivative_part::objective_hessian, "objective_gradient", objective_hessian, n, 1,
+               false, [&model](const Eigen::VectorXd& y) {
+                 return Eigen::MatrixXd(model.objective_gradient(y));
+               });
   if (check[3])
-    targets.push_back({derivative_part::constraint_hessians,
-                       "constraint_jacobian",
-                       std::move(constraint_hessians),
-                       evaluator("constraint_jacobian", m, n, true,
-                                 [&model](const Eigen::VectorXd& y) {
-                                   return Eigen::MatrixXd(model.constraint_jacobian(y));
-                                 }),
-                       {}});
+    difference(derivative_part::constraint_hessians, "constraint_jacobian",
+               std::move(constraint_hessians), m, n, true, [&model](const Eigen::VectorXd& y) {
+                 return Eigen::MatrixXd(model.constraint_jacobian(y));
+               });
 
   // The values at x itself, the fifth point of the noise estimate; a failure is bad input.
   for (auto& target : targets) {
