@@ -2,6 +2,7 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
+#include <qualify/derivative_check.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
@@ -173,6 +174,45 @@ inline std::string render(const affine_slater_report& r, bool full) {
   return out + render_findings(r.findings);
 }
 
+inline std::string render(const derivative_check_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  out += fmt::format("  model        {} variable{}, {} constraint{}\n", r.variables,
+                     r.variables == 1 ? "" : "s", r.constraints, r.constraints == 1 ? "" : "s");
+  if (r.result != verdict::invalid_input && r.result != verdict::not_checked) {
+    out += fmt::format(
+        "  steps        central differences at h_j = {:.3g} ({}) x max(|x_j|, "
+        "typical_j) and h_j/2, extrapolated; up to {} reductions by 16\n",
+        r.relative_step, r.relative_step_requested ? "given" : "automatic", r.step_reductions);
+    out += fmt::format(
+        "  tolerance    {:.3g} relative, floor {:.3g} of the row's scale, value "
+        "precision {:.3g}, estimate safety {:.3g}\n",
+        r.relative_tolerance, r.scale_floor, r.value_precision, r.estimate_safety);
+    out += fmt::format(
+        "  decided by   max (error + estimate)/tolerance {:.3g}, max (error - "
+        "estimate)/tolerance {:.3g}\n",
+        r.max_bound_ratio, r.max_proven_ratio);
+    for (const auto& p : r.parts)
+      out += fmt::format(
+          "  {:<20} {} entries: {} agree, {} disagree, {} undecided, {} not "
+          "evaluated; {} variables at a reduced step\n",
+          to_string(p.part), p.entries, p.agreeing, p.disagreeing, p.undecided, p.not_evaluated,
+          p.reduced_variables);
+    out += fmt::format("  evaluations  {} at displaced points\n", r.evaluations);
+    if (!r.worst.empty())
+      out +=
+          "  worst        verdict   entry                      analytic         finite "
+          "difference  error     estimate  tolerance step\n";
+    for (const auto& w : r.worst)
+      out += fmt::format(
+          "               {:<9} {:<26} {:<16.9g} {:<18.9g} {:<9.3g} {:<9.3g} {:<9.3g} "
+          "{:.3g}\n",
+          to_string(w.result), w.name(), w.analytic, w.finite_difference, w.error, w.error_estimate,
+          w.tolerance, w.step);
+  }
+  return out + render_findings(r.findings);
+}
+
 /// Shared parser: an empty spec or `f`.
 struct report_formatter {
   bool full = false;
@@ -219,3 +259,5 @@ template <>
 struct fmt::formatter<qualify::lp_result> : qualify::detail::report_formatter {};
 template <>
 struct fmt::formatter<qualify::affine_slater_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::derivative_check_report> : qualify::detail::report_formatter {};

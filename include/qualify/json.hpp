@@ -2,6 +2,7 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
+#include <qualify/derivative_check.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
@@ -347,6 +348,69 @@ inline void write_body(json_writer& w, const affine_slater_report& r) {
   write_findings(w, r.findings);
 }
 
+inline void write_body(json_writer& w, const derivative_check_report& r) {
+  w.field("check", "derivatives")
+      .field("verdict", to_string(r.result))
+      .field("message", r.message)
+      .field("variables", r.variables)
+      .field("constraints", r.constraints)
+      .key("relative_step_requested");
+  if (r.relative_step_requested)
+    w.value(*r.relative_step_requested);
+  else
+    w.value("automatic");
+  w.field("relative_step", r.relative_step)
+      .field("relative_tolerance", r.relative_tolerance)
+      .field("scale_floor", r.scale_floor)
+      .field("value_precision", r.value_precision)
+      .field("estimate_safety", r.estimate_safety)
+      .field("step_reductions", r.step_reductions)
+      .field("entries", r.entries)
+      .field("agreeing", r.agreeing)
+      .field("disagreeing", r.disagreeing)
+      .field("undecided", r.undecided)
+      .field("not_evaluated", r.not_evaluated)
+      .field("max_bound_ratio", r.max_bound_ratio)
+      .field("max_proven_ratio", r.max_proven_ratio)
+      .field("evaluations", r.evaluations)
+      .key("parts")
+      .begin_array();
+  for (const auto& p : r.parts)
+    w.begin_object()
+        .field("part", to_string(p.part))
+        .field("entries", p.entries)
+        .field("agreeing", p.agreeing)
+        .field("disagreeing", p.disagreeing)
+        .field("undecided", p.undecided)
+        .field("not_evaluated", p.not_evaluated)
+        .field("reduced_variables", p.reduced_variables)
+        .field("max_bound_ratio", p.max_bound_ratio)
+        .field("max_proven_ratio", p.max_proven_ratio)
+        .end_object();
+  w.end_array().key("worst").begin_array();
+  for (const auto& e : r.worst)
+    w.begin_object()
+        .field("verdict", to_string(e.result))
+        .field("part", to_string(e.part))
+        .field("name", e.name())
+        .field("row", e.row)
+        .field("label", e.label)
+        .field("variable", e.variable)
+        .field("hessian_row", e.hessian_row)
+        .field("analytic", e.analytic)
+        .field("finite_difference", e.finite_difference)
+        .field("error", e.error)
+        .field("truncation_estimate", e.truncation_estimate)
+        .field("rounding_estimate", e.rounding_estimate)
+        .field("error_estimate", e.error_estimate)
+        .field("tolerance", e.tolerance)
+        .field("scale", e.scale)
+        .field("step", e.step)
+        .end_object();
+  w.end_array().field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
 template <class Report>
 std::string report_json(const Report& r) {
   json_writer w;
@@ -365,6 +429,7 @@ inline std::string to_json(const affine_check_report& r) { return detail::report
 inline std::string to_json(const mfcq_report& r) { return detail::report_json(r); }
 inline std::string to_json(const lp_result& r) { return detail::report_json(r); }
 inline std::string to_json(const affine_slater_report& r) { return detail::report_json(r); }
+inline std::string to_json(const derivative_check_report& r) { return detail::report_json(r); }
 inline std::string to_json(const qualification_report& r) {
   detail::json_writer w;
   w.begin_object().field("schema_version", json_schema_version).key("licq").begin_object();
