@@ -13,3 +13,4 @@
 #include <qualify/lp.hpp>
 #include <qualify/mfcq.hpp>
 #include <qualify/slater.hpp>
+#include <qualify/kkt.hpp>
