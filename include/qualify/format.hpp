@@ -214,9 +214,12 @@ inline std::string render(const kkt_report& r, bool full) {
   out += "  licq         " + r.licq.message + "\n";
   out += "  linear cq    " + r.linear_cq.message + "\n";
   out += "  mfcq         " +
-         (r.mfcq_implied_by_licq ? std::string("holds (implied by LICQ)")
-          : r.mfcq               ? r.mfcq->message
-                                 : std::string(to_string(r.mfcq_result))) +
+         (r.mfcq_decided_by == "licq" ? std::string("holds (implied by LICQ)")
+          : r.mfcq_decided_by == "multiplier_ranges"
+              ? std::string(to_string(r.mfcq_result)) + " (the multiplier set is " +
+                    (r.mfcq_result == verdict::holds ? "bounded" : "unbounded") + ": Gauvin 1977)"
+          : r.mfcq ? r.mfcq->message
+                   : std::string(to_string(r.mfcq_result))) +
          "\n";
   if (r.result != verdict::fails) {
     out += fmt::format("  uniqueness   unique {}, bounded {}\n", to_string(r.multipliers_unique),

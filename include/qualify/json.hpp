@@ -417,7 +417,7 @@ inline void write_body(json_writer& w, const kkt_report& r) {
       .field("licq", to_string(r.licq.result))
       .field("linear_cq", to_string(r.linear_cq.result))
       .field("mfcq", to_string(r.mfcq_result))
-      .field("mfcq_implied_by_licq", r.mfcq_implied_by_licq)
+      .field("mfcq_decided_by", r.mfcq_decided_by)
       .field("multipliers_unique", to_string(r.multipliers_unique))
       .field("multipliers_bounded", to_string(r.multipliers_bounded))
       .key("multiplier_ranges")

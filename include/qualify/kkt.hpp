@@ -249,7 +249,10 @@ struct kkt_report {
   std::optional<mfcq_report>
       mfcq;  ///< run when LICQ does not hold (rows: active inequalities, then equalities)
   verdict mfcq_result = verdict::not_checked;
-  bool mfcq_implied_by_licq = false;
+  /// "licq" (LICQ implies MFCQ), "multiplier_ranges" (at a KKT point MFCQ holds exactly when
+  /// the multiplier set is bounded: Gauvin, Math. Programming 12, 1977; the ranges say whether
+  /// it is, with no LP of n + 1 columns), or "check_mfcq" (its LP, in `mfcq`).
+  std::string mfcq_decided_by;
   verdict multipliers_unique = verdict::not_checked;   ///< LICQ, or ranges of width 0 (strict MFCQ)
   verdict multipliers_bounded = verdict::not_checked;  ///< LICQ, finite ranges, or MFCQ (Gauvin)
   std::vector<multiplier_range> ranges;  ///< multipliers a dependence involves (others are fixed)
@@ -695,30 +698,32 @@ inline std::string join_names(const std::vector<Index>& rows, const row_names& n
   return text;
 }
 
-/// The Hessian of the Lagrangian from the Hessians a point carries; rows declared affine
-/// may leave theirs out (zero), rows with a zero multiplier do not enter.
+/// Why the Hessians a point carries do not give the Hessian of the Lagrangian for y (empty
+/// when they do): rows declared affine may leave theirs out (zero), rows with a zero
+/// multiplier do not enter.
+inline std::string missing_hessians(const model_at_point& p, const Eigen::VectorXd& y,
+                                    const row_names& names) {
+  if (!p.objective_hessian) return "no Hessian of the objective was given";
+  std::vector<Index> missing;
+  for (Index i = 0; i < p.values.size(); ++i)
+    if (y(i) != 0 && (p.hessians.empty() || !p.hessians[std::size_t(i)]) &&
+        p.kinds[std::size_t(i)] != constraint_kind::affine)
+      missing.push_back(i);
+  if (missing.empty()) return {};
+  return "no Hessian was given for " + join_names(missing, names) +
+         " (non-zero multiplier, not declared affine)";
+}
+
+/// The Hessian of the Lagrangian from the Hessians a point carries (see missing_hessians).
 inline lagrangian_hessian stored_hessian(const model_at_point& p, const Eigen::VectorXd& y,
                                          const row_names& names) {
   lagrangian_hessian out;
-  if (!p.objective_hessian) {
-    out.unavailable = "no Hessian of the objective was given";
-    return out;
-  }
+  out.unavailable = missing_hessians(p, y, names);
+  if (!out.unavailable.empty()) return out;
   Eigen::MatrixXd h = *p.objective_hessian;
-  std::vector<Index> missing;
-  for (Index i = 0; i < p.values.size(); ++i) {
-    if (y(i) == 0) continue;
-    const auto& given = p.hessians.empty() ? std::nullopt : p.hessians[std::size_t(i)];
-    if (given)
-      h.noalias() += y(i) * *given;
-    else if (p.kinds[std::size_t(i)] != constraint_kind::affine)
-      missing.push_back(i);
-  }
-  if (!missing.empty()) {
-    out.unavailable = "no Hessian was given for " + join_names(missing, names) +
-                      " (non-zero multiplier, not declared affine)";
-    return out;
-  }
+  for (Index i = 0; i < p.values.size(); ++i)
+    if (y(i) != 0 && !p.hessians.empty() && p.hessians[std::size_t(i)])
+      h.noalias() += y(i) * *p.hessians[std::size_t(i)];
   out.matrix = 0.5 * (h + h.transpose());
   out.source = "model";
   return out;
@@ -770,7 +775,7 @@ inline lagrangian_hessian difference_hessian(const callback_model& model, const 
 
 /// The second-order tests of DESIGN.md, section 2, once the KKT residuals do not fail.
 inline void check_second_order(const model_at_point& p, const Eigen::VectorXd& row_norms,
-                               const kkt_options& o, const hessian_function& hessian,
+                               const kkt_options& o, const hessian_function& differences,
                                kkt_report& rep) {
   auto& so = rep.second_order;
   const auto not_checked = [&](std::string reason, severity level, std::string code) {
@@ -779,6 +784,9 @@ inline void check_second_order(const model_at_point& p, const Eigen::VectorXd& r
     if (!code.empty()) add_finding(rep.findings, level, std::move(code), so.reason, {}, rep.names);
   };
   if (rep.result == verdict::fails) return not_checked("not a KKT point", severity::info, "");
+  if (!differences)  // the point's own Hessians: known at once whether they suffice
+    if (auto missing = missing_hessians(p, rep.multipliers, rep.names); !missing.empty())
+      return not_checked(missing, severity::info, "hessian_unavailable");
   const Index n = p.x.size();
   std::vector<char> weak(std::size_t(p.values.size()), 0);
   for (Index i : rep.weakly_active) weak[std::size_t(i)] = 1;
@@ -801,7 +809,8 @@ inline void check_second_order(const model_at_point& p, const Eigen::VectorXd& r
   const null_space_basis necessary_basis =
       same ? null_space_basis{} : null_space_of(p, all_rows, row_norms, o.licq);
 
-  const lagrangian_hessian h = hessian(rep.multipliers);
+  const lagrangian_hessian h =
+      differences ? differences(rep.multipliers) : stored_hessian(p, rep.multipliers, rep.names);
   if (!h.unavailable.empty())
     return not_checked(
         h.unavailable, h.failure_code.empty() ? severity::info : severity::warning,
@@ -1138,9 +1147,10 @@ inline void describe_kkt(const model_at_point& p, const kkt_options& o, bool con
   }
 }
 
-/// check_kkt on a point, with the Hessian of the Lagrangian from `hessian`.
+/// check_kkt on a point; the Hessian of the Lagrangian from the point's Hessians, or from
+/// `differences` when that is set.
 inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
-                          const kkt_options& o, const hessian_function& hessian) {
+                          const kkt_options& o, const hessian_function& differences = {}) {
   kkt_report rep;
   rep.variables = p.x.size();
   rep.constraints = p.jacobian.rows();
@@ -1157,8 +1167,11 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
     if (auto bad = non_finite_entry(*given, "multipliers"); !bad.empty())
       return invalid_kkt(rep, "non_finite_entry", bad);
   }
-  Eigen::VectorXd row_norms(m);
-  for (Index i = 0; i < m; ++i) row_norms(i) = p.jacobian.row(i).stableNorm();
+  // Row norms column by column (a row of a column-major matrix is strided); a row whose
+  // squares overflow is measured again with the scaled norm.
+  Eigen::VectorXd row_norms = p.jacobian.rowwise().squaredNorm().cwiseSqrt();
+  for (Index i = 0; i < m; ++i)
+    if (!std::isfinite(row_norms(i))) row_norms(i) = p.jacobian.row(i).stableNorm();
 
   // Constraint qualifications at x; LICQ also picks the active rows.
   licq_options lo = o.licq;
@@ -1173,8 +1186,9 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
     (p.types[std::size_t(i)] == constraint_type::equality ? eq_rows : ineq_rows).push_back(i);
   if (rep.licq.result == verdict::holds) {
     rep.mfcq_result = verdict::holds;  // LICQ implies MFCQ
-    rep.mfcq_implied_by_licq = true;
-  } else {
+    rep.mfcq_decided_by = "licq";
+  }
+  const auto run_mfcq = [&] {  // MFCQ's LP, when neither LICQ nor the multiplier set decides
     mfcq_options mo = o.mfcq;
     mo.licq = lo;
     mo.compare_with_licq = false;  // LICQ is in the report already
@@ -1184,7 +1198,8 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
     const Eigen::MatrixXd e = p.jacobian(eq_rows, Eigen::all);
     rep.mfcq = check_mfcq(a, e, mo, rep.names(order));
     rep.mfcq_result = rep.mfcq->result;
-  }
+    rep.mfcq_decided_by = "check_mfcq";
+  };
 
   // Multipliers and residuals.
   if (given) {
@@ -1230,9 +1245,12 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
                                  : width > o.undecided_band * threshold ? verdict::fails
                                                                         : verdict::undecided;
         rep.multipliers_bounded = finite ? verdict::holds : verdict::fails;
+        rep.mfcq_result = rep.multipliers_bounded;  // Gauvin: MFCQ iff bounded at a KKT point
+        rep.mfcq_decided_by = "multiplier_ranges";
       } else {
         rep.multipliers_unique = verdict::undecided;
-        rep.multipliers_bounded = rep.mfcq_result;  // Gauvin: MFCQ iff bounded at a KKT point
+        run_mfcq();
+        rep.multipliers_bounded = rep.mfcq_result;
       }
     }
     // Strict complementarity: an inequality is strongly active when its multiplier is positive
@@ -1247,9 +1265,10 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
                                        ? largest
                                        : std::min(rep.complementarity_margin, largest);
     }
-    check_second_order(p, row_norms, o, hessian, rep);
+    check_second_order(p, row_norms, o, differences, rep);
     if (p.convex_model && rep.result == verdict::holds) convex_ok = check_convexity(p, o, rep);
   } else {
+    if (rep.licq.result != verdict::holds) run_mfcq();
     rep.second_order.result = second_order_result::not_checked;
     rep.second_order.reason = "not checked: not a KKT point";
   }
@@ -1277,12 +1296,10 @@ inline kkt_report kkt_callback(const callback_model& model, const Eigen::VectorX
       bool(model.objective_hessian) && (model.constraints() == 0 || bool(model.constraint_hessian));
   const model_evaluation e = evaluate_model(model, x, {true, analytic});
   if (!e.ok()) return invalid_kkt(rep, e.code, e.error);
-  const row_names names = rep.names;
+  if (analytic) return kkt_run(e.point, given, o);
   const double step = o.difference_step.value_or(std::cbrt(std::numeric_limits<double>::epsilon()));
-  const hessian_function hessian = [&](const Eigen::VectorXd& y) {
-    return analytic ? stored_hessian(e.point, y, names) : difference_hessian(model, x, y, step);
-  };
-  return kkt_run(e.point, given, o, hessian);
+  return kkt_run(e.point, given, o,
+                 [&](const Eigen::VectorXd& y) { return difference_hessian(model, x, y, step); });
 }
 
 }  // namespace detail
@@ -1291,20 +1308,14 @@ inline kkt_report kkt_callback(const callback_model& model, const Eigen::VectorX
 /// least squares. Second order uses the Hessians the point carries (rows declared affine may
 /// leave theirs out); without them it is "not_checked", with the reason.
 inline kkt_report check_kkt(const model_at_point& point, const kkt_options& options = {}) {
-  const row_names names(point.labels);
-  return detail::kkt_run(point, nullptr, options, [&](const Eigen::VectorXd& y) {
-    return detail::stored_hessian(point, y, names);
-  });
+  return detail::kkt_run(point, nullptr, options);
 }
 
 /// The same with the multipliers given (one per constraint, L = f + sum y_i c_i): the pair
 /// (x, multipliers) is checked.
 inline kkt_report check_kkt(const model_at_point& point, const Eigen::VectorXd& multipliers,
                             const kkt_options& options = {}) {
-  const row_names names(point.labels);
-  return detail::kkt_run(point, &multipliers, options, [&](const Eigen::VectorXd& y) {
-    return detail::stored_hessian(point, y, names);
-  });
+  return detail::kkt_run(point, &multipliers, options);
 }
 
 /// KKT certificate of a callback model at x, the multipliers estimated. The model is

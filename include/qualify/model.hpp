@@ -140,12 +140,6 @@ inline input_problem validate_point(const model_at_point& p) {
   if (!p.hessians.empty() && Index(p.hessians.size()) != m)
     return {"dimension_mismatch",
             sizes(Index(p.hessians.size()), m, "hessians", "the rows of jacobian, or none")};
-  if (p.objective_hessian)
-    if (auto bad = square(*p.objective_hessian, "objective_hessian"); !bad.ok()) return bad;
-  for (std::size_t i = 0; i < p.hessians.size(); ++i)
-    if (p.hessians[i])
-      if (auto bad = square(*p.hessians[i], "hessians[" + std::to_string(i) + "]"); !bad.ok())
-        return bad;
   const auto finite = [](const auto& a, const std::string& what) -> input_problem {
     std::string message = detail::non_finite_entry(a, what);
     if (message.empty()) return {};
@@ -155,11 +149,15 @@ inline input_problem validate_point(const model_at_point& p) {
   if (auto bad = finite(p.objective_gradient, "objective_gradient"); !bad.ok()) return bad;
   if (auto bad = finite(p.values, "values"); !bad.ok()) return bad;
   if (auto bad = finite(p.jacobian, "jacobian"); !bad.ok()) return bad;
+  const auto hessian = [&](const Eigen::MatrixXd& h, const std::string& what) {
+    input_problem bad = square(h, what);
+    return bad.ok() ? finite(h, what) : bad;
+  };
   if (p.objective_hessian)
-    if (auto bad = finite(*p.objective_hessian, "objective_hessian"); !bad.ok()) return bad;
+    if (auto bad = hessian(*p.objective_hessian, "objective_hessian"); !bad.ok()) return bad;
   for (std::size_t i = 0; i < p.hessians.size(); ++i)
     if (p.hessians[i])
-      if (auto bad = finite(*p.hessians[i], "hessians[" + std::to_string(i) + "]"); !bad.ok())
+      if (auto bad = hessian(*p.hessians[i], "hessians[" + std::to_string(i) + "]"); !bad.ok())
         return bad;
   return {};
 }
