@@ -3,6 +3,7 @@
 #pragma once
 
 #include <qualify/derivative_check.hpp>
+#include <qualify/kkt.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
@@ -213,6 +214,71 @@ inline std::string render(const derivative_check_report& r, bool full) {
   return out + render_findings(r.findings);
 }
 
+inline std::string render(const kkt_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  if (r.result == verdict::invalid_input || r.result == verdict::not_checked)
+    return out + render_findings(r.findings);
+  const auto& names = r.names;
+  out += fmt::format("  model        {} variables, {} constraints; multipliers {}", r.variables,
+                     r.constraints, to_string(r.source));
+  if (r.source == multiplier_source::estimated)
+    out += fmt::format(" (bounded least squares, {} solves)", r.estimate_iterations);
+  out += fmt::format("\n  activity     tolerance {:.3g}\n", r.active.activity_tolerance);
+  out += "  active       " + join_rows(r.active.active, names) + "\n";
+  out += "  near-active  " + join_rows(r.active.near_active, names) + "\n";
+  out += "  violated     " + join_rows(r.active.violated, names) + "\n";
+  out += fmt::format("  residuals    {:<16} {:>10} {:>10} {:>10}  verdict\n", "", "raw", "scaled",
+                     "threshold");
+  const std::pair<const char*, const kkt_residual*> rows[] = {
+      {"stationarity", &r.stationarity},
+      {"primal", &r.primal},
+      {"dual", &r.dual},
+      {"complementarity", &r.complementarity}};
+  for (const auto& [label, res] : rows)
+    out += fmt::format("               {:<16} {:>10.3g} {:>10.3g} {:>10.3g}  {}\n", label, res->raw,
+                       res->scaled, res->threshold, to_string(res->result));
+  out += fmt::format("  scaling      s_d = {:.3g} (divides stationarity and complementarity)\n",
+                     r.multiplier_scale);
+  std::string multipliers;
+  Index shown = 0, nonzero = 0;
+  for (Index i = 0; i < r.multipliers.size(); ++i) {
+    if (r.multipliers(i) == 0) continue;
+    ++nonzero;
+    if (++shown <= 12)
+      multipliers +=
+          fmt::format("{}{} {:.6g}", multipliers.empty() ? "" : ", ", names(i), r.multipliers(i));
+  }
+  if (nonzero > 12) multipliers += fmt::format(" and {} more", nonzero - 12);
+  out += "  multipliers  " + (multipliers.empty() ? std::string("all zero") : multipliers) + "\n";
+  out += "  licq         " + r.licq.message + "\n";
+  out += "  linear cq    " + r.linear_cq.message + "\n";
+  out += "  mfcq         " +
+         (r.mfcq_decided_by == "licq" ? std::string("holds (implied by LICQ)")
+          : r.mfcq_decided_by == "multiplier_ranges"
+              ? std::string(to_string(r.mfcq_result)) + " (the multiplier set is " +
+                    (r.mfcq_result == verdict::holds ? "bounded" : "unbounded") + ": Gauvin 1977)"
+          : r.mfcq ? r.mfcq->message
+                   : std::string(to_string(r.mfcq_result))) +
+         "\n";
+  if (r.result != verdict::fails) {
+    out += fmt::format("  uniqueness   unique {}, bounded {}\n", to_string(r.multipliers_unique),
+                       to_string(r.multipliers_bounded));
+    std::string ranges;
+    for (const auto& range : r.ranges)
+      ranges += fmt::format("{}{} in [{:.6g}, {:.6g}]", ranges.empty() ? "" : ", ",
+                            names(range.row), range.lower, range.upper);
+    if (!ranges.empty()) out += "  ranges       " + ranges + "\n";
+    out += "  strongly     " + join_rows(r.strongly_active, names) + "\n";
+    out += "  weakly       " + join_rows(r.weakly_active, names) +
+           fmt::format(" (complementarity margin {:.3g})\n", r.complementarity_margin);
+  }
+  out += fmt::format("  second order {}: {}\n", to_string(r.second_order.result),
+                     r.second_order.reason);
+  for (const auto& premise : r.premises) out += "  premise      " + premise + "\n";
+  return out + render_findings(r.findings);
+}
+
 /// Shared parser: an empty spec or `f`.
 struct report_formatter {
   bool full = false;
@@ -261,3 +327,5 @@ template <>
 struct fmt::formatter<qualify::affine_slater_report> : qualify::detail::report_formatter {};
 template <>
 struct fmt::formatter<qualify::derivative_check_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::kkt_report> : qualify::detail::report_formatter {};

@@ -3,6 +3,7 @@
 #pragma once
 
 #include <qualify/derivative_check.hpp>
+#include <qualify/kkt.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
@@ -411,6 +412,113 @@ inline void write_body(json_writer& w, const derivative_check_report& r) {
   write_findings(w, r.findings);
 }
 
+inline void write_residual(json_writer& w, std::string_view k, const kkt_residual& r) {
+  w.key(k)
+      .begin_object()
+      .field("verdict", to_string(r.result))
+      .field("raw", r.raw)
+      .field("scaled", r.scaled)
+      .field("threshold", r.threshold)
+      .field("margin", r.margin)
+      .field("worst", r.worst)
+      .field("over", r.over)
+      .end_object();
+}
+
+inline void write_reduced_hessian(json_writer& w, std::string_view k, const reduced_hessian& h) {
+  w.key(k)
+      .begin_object()
+      .field("computed", h.computed)
+      .field("rows", h.rows)
+      .field("constraint_rank", h.constraint_rank)
+      .field("dimension", h.dimension)
+      .field("positive", h.positive)
+      .field("negative", h.negative)
+      .field("zero", h.zero)
+      .field("smallest_eigenvalue", h.smallest)
+      .field("largest_eigenvalue", h.largest)
+      .end_object();
+}
+
+inline void write_body(json_writer& w, const kkt_report& r) {
+  const auto& names = r.names;
+  const auto named = [&](const std::vector<Index>& rows) { return names(rows); };
+  // Keys of `multipliers` are row names; a name met twice gets " (row i)" so keys stay unique.
+  std::vector<std::string> keys;
+  for (Index i = 0; i < r.multipliers.size(); ++i) {
+    std::string key = names(i);
+    if (std::find(keys.begin(), keys.end(), key) != keys.end())
+      key += " (row " + std::to_string(i) + ")";
+    keys.push_back(std::move(key));
+  }
+  w.field("check", "kkt")
+      .field("verdict", to_string(r.result))
+      .field("classification", to_string(r.classification))
+      .field("message", r.message)
+      .field("variables", r.variables)
+      .field("constraints", r.constraints)
+      .field("multiplier_source", to_string(r.source))
+      .key("multipliers")
+      .begin_object();
+  for (Index i = 0; i < r.multipliers.size(); ++i) w.field(keys[std::size_t(i)], r.multipliers(i));
+  w.end_object().key("residuals").begin_object();
+  write_residual(w, "stationarity", r.stationarity);
+  write_residual(w, "primal", r.primal);
+  write_residual(w, "dual", r.dual);
+  write_residual(w, "complementarity", r.complementarity);
+  w.end_object()
+      .field("multiplier_scale", r.multiplier_scale)
+      .field("stationarity_norm", r.stationarity_norm)
+      .field("estimate_iterations", r.estimate_iterations);
+  write_vector(w, "row_violation", r.row_violation);
+  w.field("activity_tolerance", r.active.activity_tolerance)
+      .field("active", named(r.active.active))
+      .field("near_active", named(r.active.near_active))
+      .field("violated", named(r.active.violated))
+      .field("strongly_active", named(r.strongly_active))
+      .field("weakly_active", named(r.weakly_active))
+      .field("complementarity_margin", r.complementarity_margin)
+      .field("licq", to_string(r.licq.result))
+      .field("linear_cq", to_string(r.linear_cq.result))
+      .field("mfcq", to_string(r.mfcq_result))
+      .field("mfcq_decided_by", r.mfcq_decided_by)
+      .field("multipliers_unique", to_string(r.multipliers_unique))
+      .field("multipliers_bounded", to_string(r.multipliers_bounded))
+      .key("multiplier_ranges")
+      .begin_array();
+  for (const auto& range : r.ranges)
+    w.begin_object()
+        .field("row", range.row)
+        .field("name", names(range.row))
+        .field("lower", range.lower)
+        .field("upper", range.upper)
+        .end_object();
+  const auto& so = r.second_order;
+  w.end_array()
+      .field("second_order", to_string(so.result))
+      .key("second_order_detail")
+      .begin_object()
+      .field("reason", so.reason)
+      .field("hessian_source", so.hessian_source)
+      .field("hessian_norm", so.hessian_norm)
+      .field("hessian_error_estimate", so.hessian_error_estimate)
+      .field("eigenvalue_threshold", so.eigenvalue_threshold);
+  write_reduced_hessian(w, "sufficient", so.sufficient);
+  write_reduced_hessian(w, "necessary", so.necessary);
+  w.end_object().field("premises", r.premises).key("licq_report").begin_object();
+  write_body(w, r.licq);
+  w.end_object().key("linear_cq_report").begin_object();
+  write_body(w, r.linear_cq);
+  w.end_object();
+  if (r.mfcq) {
+    w.key("mfcq_report").begin_object();
+    write_body(w, *r.mfcq);
+    w.end_object();
+  }
+  w.field("labels", names.labels());
+  write_findings(w, r.findings);
+}
+
 template <class Report>
 std::string report_json(const Report& r) {
   json_writer w;
@@ -430,6 +538,7 @@ inline std::string to_json(const mfcq_report& r) { return detail::report_json(r)
 inline std::string to_json(const lp_result& r) { return detail::report_json(r); }
 inline std::string to_json(const affine_slater_report& r) { return detail::report_json(r); }
 inline std::string to_json(const derivative_check_report& r) { return detail::report_json(r); }
+inline std::string to_json(const kkt_report& r) { return detail::report_json(r); }
 inline std::string to_json(const qualification_report& r) {
   detail::json_writer w;
   w.begin_object().field("schema_version", json_schema_version).key("licq").begin_object();

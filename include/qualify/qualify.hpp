@@ -14,3 +14,4 @@
 #include <qualify/mfcq.hpp>
 #include <qualify/slater.hpp>
 #include <qualify/derivative_check.hpp>
+#include <qualify/kkt.hpp>
