@@ -202,6 +202,7 @@ struct slater_system {
   std::vector<slater_side> sides;
   std::vector<Index> side_lower, side_upper;  // per row: side index or -1
   std::vector<Index> col_lower_side, col_upper_side;
+  Index equality_rows = 0, fixed_columns = 0;
 };
 
 /// rho_k(x) for every side and the largest relative violation of any row or bound.
@@ -368,6 +369,66 @@ inline std::string slater_validate(const lp_sparse& A, const Eigen::VectorXd& rl
   return {};
 }
 
+/// The system with absent bounds normalised (beyond `infinity` they count as none), row norms
+/// and its inequality sides (rows with row_lower == row_upper are equalities, columns with
+/// equal bounds fixed). The caller has validated the data.
+inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::VectorXd ru,
+                                    Eigen::VectorXd cl, Eigen::VectorXd cu, double infinity) {
+  const Index m = A.rows(), n = A.cols();
+  const double inf = std::numeric_limits<double>::infinity();
+  for (Eigen::VectorXd* v : {&rl, &cl})
+    for (Index i = 0; i < v->size(); ++i)
+      if ((*v)[i] <= -infinity) (*v)[i] = -inf;
+  for (Eigen::VectorXd* v : {&ru, &cu})
+    for (Index i = 0; i < v->size(); ++i)
+      if ((*v)[i] >= infinity) (*v)[i] = inf;
+  slater_system p;
+  p.A = std::move(A);
+  p.A.makeCompressed();
+  p.rows = p.A;
+  p.rl = rl;
+  p.ru = ru;
+  p.cl = cl;
+  p.cu = cu;
+  p.row_norm = Eigen::VectorXd::Zero(m);
+  for (Index i = 0; i < m; ++i) p.row_norm[i] = p.rows.row(i).norm();
+  p.side_lower.assign(std::size_t(m), -1);
+  p.side_upper.assign(std::size_t(m), -1);
+  p.col_lower_side.assign(std::size_t(n), -1);
+  p.col_upper_side.assign(std::size_t(n), -1);
+  auto add_side = [&](bool column, Index index, bound_side side, double bound, double norm) {
+    p.sides.push_back({column, index, side, bound, norm + std::abs(bound)});
+    return static_cast<Index>(p.sides.size()) - 1;
+  };
+  for (Index i = 0; i < m; ++i) {
+    if (rl[i] == ru[i]) {
+      ++p.equality_rows;
+      continue;
+    }
+    if (std::isfinite(rl[i]))
+      p.side_lower[std::size_t(i)] = add_side(false, i, bound_side::lower, rl[i], p.row_norm[i]);
+    if (std::isfinite(ru[i]))
+      p.side_upper[std::size_t(i)] = add_side(false, i, bound_side::upper, ru[i], p.row_norm[i]);
+  }
+  for (Index j = 0; j < n; ++j) {
+    if (cl[j] == cu[j]) {
+      ++p.fixed_columns;
+      continue;
+    }
+    if (std::isfinite(cl[j]))
+      p.col_lower_side[std::size_t(j)] = add_side(true, j, bound_side::lower, cl[j], 1.0);
+    if (std::isfinite(cu[j]))
+      p.col_upper_side[std::size_t(j)] = add_side(true, j, bound_side::upper, cu[j], 1.0);
+  }
+  return p;
+}
+
+/// The margin LP of check_affine_slater (max t s.t. rho_k(x) >= t on every side,
+/// -1 <= t <= 1; t is the last column): the phase-one LP of an affine system.
+inline lp_general slater_margin_lp(const slater_system& p) {
+  return slater_build(p, std::vector<Index>(p.sides.size(), 0), 1, -1.0, 1.0);
+}
+
 inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, Eigen::VectorXd ru,
                                               Eigen::VectorXd cl, Eigen::VectorXd cu,
                                               const affine_slater_options& o,
@@ -396,53 +457,9 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
   if (auto bad = slater_validate(A, rl, ru, cl, cu, code); !bad.empty())
     return slater_invalid(rep, code, bad);
 
-  // Bounds beyond the infinity threshold are absent, as the LP engine reads them.
-  const double inf = std::numeric_limits<double>::infinity(), big = o.lp.infinity_threshold;
-  for (Eigen::VectorXd* v : {&rl, &cl})
-    for (Index i = 0; i < v->size(); ++i)
-      if ((*v)[i] <= -big) (*v)[i] = -inf;
-  for (Eigen::VectorXd* v : {&ru, &cu})
-    for (Index i = 0; i < v->size(); ++i)
-      if ((*v)[i] >= big) (*v)[i] = inf;
-
-  slater_system p;
-  p.A = std::move(A);
-  p.A.makeCompressed();
-  p.rows = p.A;
-  p.rl = rl;
-  p.ru = ru;
-  p.cl = cl;
-  p.cu = cu;
-  p.row_norm = Eigen::VectorXd::Zero(m);
-  for (Index i = 0; i < m; ++i) p.row_norm[i] = p.rows.row(i).norm();
-  p.side_lower.assign(std::size_t(m), -1);
-  p.side_upper.assign(std::size_t(m), -1);
-  p.col_lower_side.assign(std::size_t(n), -1);
-  p.col_upper_side.assign(std::size_t(n), -1);
-  auto add_side = [&](bool column, Index index, bound_side side, double bound, double norm) {
-    p.sides.push_back({column, index, side, bound, norm + std::abs(bound)});
-    return static_cast<Index>(p.sides.size()) - 1;
-  };
-  for (Index i = 0; i < m; ++i) {
-    if (rl[i] == ru[i]) {
-      ++rep.equality_rows;
-      continue;
-    }
-    if (std::isfinite(rl[i]))
-      p.side_lower[std::size_t(i)] = add_side(false, i, bound_side::lower, rl[i], p.row_norm[i]);
-    if (std::isfinite(ru[i]))
-      p.side_upper[std::size_t(i)] = add_side(false, i, bound_side::upper, ru[i], p.row_norm[i]);
-  }
-  for (Index j = 0; j < n; ++j) {
-    if (cl[j] == cu[j]) {
-      ++rep.fixed_columns;
-      continue;
-    }
-    if (std::isfinite(cl[j]))
-      p.col_lower_side[std::size_t(j)] = add_side(true, j, bound_side::lower, cl[j], 1.0);
-    if (std::isfinite(cu[j]))
-      p.col_upper_side[std::size_t(j)] = add_side(true, j, bound_side::upper, cu[j], 1.0);
-  }
+  slater_system p = slater_prepare(std::move(A), rl, ru, cl, cu, o.lp.infinity_threshold);
+  rep.equality_rows = p.equality_rows;
+  rep.fixed_columns = p.fixed_columns;
   const Index K = static_cast<Index>(p.sides.size());
   rep.inequality_sides = K;
   const double tau = o.slack_tolerance, strict = o.undecided_band * o.slack_tolerance;
