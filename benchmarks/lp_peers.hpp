@@ -149,43 +149,36 @@ inline bool highs_available(const std::string& python) {
   return std::system(cmd.c_str()) == 0;
 }
 
-/// Times scipy.optimize.linprog(method=`method`) on every LP in one Python process
-/// (benchmarks/highs_peer.py): the LPs are written to `dir`, the script reads each and
-/// converts it to linprog's form untimed, and times linprog alone inside Python (best of up
-/// to 5 runs within about 1 s), so that the interpreter's start-up and the file reading are
-/// not counted.
-inline std::map<std::string, highs_answer> run_highs(const std::vector<const bench_lp*>& lps,
-                                                     const std::string& method,
+/// Times scipy.optimize.linprog with each of `methods` (comma-separated) on one LP, in a
+/// Python process of its own (benchmarks/highs_peer.py): the LP is written to `dir`, the
+/// script reads it and converts it to linprog's form untimed, and times linprog alone inside
+/// Python (best of up to 5 runs within about 1 s), so that the interpreter's start-up and the
+/// file reading are not counted. One process per LP keeps the peer's runs next to ours in time.
+inline std::map<std::string, highs_answer> run_highs(const bench_lp& lp, const std::string& methods,
                                                      const std::string& python,
                                                      const std::string& script,
                                                      const std::string& dir) {
   std::map<std::string, highs_answer> out;
-  std::string cmd = "'" + python + "' '" + script + "' " + method;
-  std::vector<std::string> files;
-  for (std::size_t k = 0; k < lps.size(); ++k) {
-    const std::string file = dir + "/lp" + std::to_string(k) + ".bin";
-    if (!write_lp_file(*lps[k], file)) return out;
-    files.push_back(file);
-    cmd += " '" + file + "'";
-  }
-  const std::string result = dir + "/highs.txt";
-  cmd += " > '" + result + "'";
+  const std::string file = dir + "/lp.bin", result = dir + "/highs.txt";
+  if (!write_lp_file(lp, file)) return out;
+  const std::string cmd =
+      "'" + python + "' '" + script + "' " + methods + " '" + file + "' > '" + result + "'";
   const int rc = std::system(cmd.c_str());
   std::ifstream in(result);
   std::string line;
   while (std::getline(in, line)) {
     std::istringstream fields(line);
-    std::string file, objective;
+    std::string path, method, objective;
     highs_answer a;
-    if (!(fields >> file >> a.status >> objective >> a.seconds)) continue;
+    if (!(fields >> path >> method >> a.status >> objective >> a.seconds)) continue;
     a.objective = std::strtod(objective.c_str(), nullptr);
     a.ran = true;
-    for (std::size_t k = 0; k < files.size(); ++k)
-      if (files[k] == file) out[lps[k]->name] = a;
+    out[method] = a;
   }
-  for (const auto& f : files) std::remove(f.c_str());
+  std::remove(file.c_str());
   std::remove(result.c_str());
-  if (rc != 0) std::fprintf(stderr, "highs_peer.py ended with status %d\n", rc);
+  if (rc != 0)
+    std::fprintf(stderr, "highs_peer.py ended with status %d on %s\n", rc, lp.name.c_str());
   return out;
 }
 

@@ -11,11 +11,13 @@
 //     Gaussian rows (m active rows, m / 20 equalities, n = m / 2), as check_mfcq poses it;
 //  3. the Netlib models of ../shared/data/netlib: each LP as given (its published optimum
 //     checked) and the phase-one (margin) LP of its constraints.
-// Peers: GLPK's library in this process (glp_simplex, glp_interior), and
+// Peers: GLPK's library in this process (glp_simplex, and glp_interior on LPs of up to 2000
+// rows), and
 // scipy.optimize.linprog with method "highs" (HiGHS choosing its method) and "highs-ipm",
-// run by benchmarks/highs_peer.py in one Python process that times linprog alone
-// (time.perf_counter), so Python's start-up, the file reading and the conversion to
-// linprog's form are not counted. Every time is the best of up to 5 runs within about 1 s.
+// run by benchmarks/highs_peer.py in a Python process per LP (started just before our solve
+// of that LP, so that all solvers meet the same machine load) that times linprog alone
+// (time.perf_counter): Python's start-up, the file reading and the conversion to linprog's
+// form are not counted. Every time is the best of up to 5 runs within about 1 s.
 // Python: $QUALIFY_PYTHON, else the python3 found by CMake (Debian's, with python3-scipy).
 #include <fmt/core.h>
 #include <unistd.h>
@@ -109,26 +111,22 @@ family_total run_family(const std::vector<bench_lp>& lps, const std::vector<doub
                         const std::string& python, const std::string& script,
                         const std::string& dir, std::vector<timing>* rows = nullptr) {
   family_total total;
-  std::vector<const bench_lp*> list;
-  for (const auto& p : lps) list.push_back(&p);
-  const bool highs = !python.empty();
-  std::map<std::string, qualify_bench::highs_answer> h, hi;
-  if (highs) {
-    h = qualify_bench::run_highs(list, "highs", python, script, dir);
-    hi = qualify_bench::run_highs(list, "highs-ipm", python, script, dir);
-  }
   fmt::print("{:<22} {:>6} {:>6} {:>8}  {:>9} {:>9} {:>9} {:>9} {:>9}  {:>7} {:>7} {:>7}  {}\n",
              "lp", "rows", "cols", "nnz", "ours_s", "highs_s", "h-ipm_s", "splx_s", "g-ipm_s",
              "h/ours", "hi/ours", "sx/ours", "agree (ours highs splx) factorisation");
   for (std::size_t k = 0; k < lps.size(); ++k) {
     const bench_lp& p = lps[k];
     timing t;
+    std::map<std::string, qualify_bench::highs_answer> h;
+    if (!python.empty()) h = qualify_bench::run_highs(p, "highs,highs-ipm", python, script, dir);
     qualify::lp_result r;
     t.ours = qualify_bench::time_ours(p, r);
     const double v_simplex = qualify_bench::glpk_solve(p, false, t.simplex);
-    if (with_glpk_ipm) qualify_bench::glpk_solve(p, true, t.glpk_ipm);
-    const auto& a = h[p.name];
-    const auto& b = hi[p.name];
+    // glp_interior grows fastest (46 s at 2000 rows, measured): larger LPs are left out.
+    const bool glpk_ipm = with_glpk_ipm && p.A.rows() <= 2000;
+    if (glpk_ipm) qualify_bench::glpk_solve(p, true, t.glpk_ipm);
+    const auto& a = h["highs"];
+    const auto& b = h["highs-ipm"];
     t.highs = a.ran ? a.seconds : NAN;
     t.highs_ipm = b.ran ? b.seconds : NAN;
     const double ref = std::isnan(reference[k]) ? v_simplex : reference[k];
@@ -142,7 +140,7 @@ family_total run_family(const std::vector<bench_lp>& lps, const std::vector<doub
     total.sum.highs += t.highs;
     total.sum.highs_ipm += t.highs_ipm;
     total.sum.simplex += t.simplex;
-    total.sum.glpk_ipm += with_glpk_ipm ? t.glpk_ipm : 0;
+    total.sum.glpk_ipm += glpk_ipm ? t.glpk_ipm : 0;
     fmt::print(
         "{:<22} {:>6} {:>6} {:>8}  {:>9.4f} {:>9.4f} {:>9.4f} {:>9.4f} {:>9.4f}  {:>7.2f} {:>7.2f} "
         "{:>7.2f}  {} {} {}  {}\n",

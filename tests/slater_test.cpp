@@ -674,10 +674,7 @@ qualify::callback_model callbacks(Index n, std::vector<constraint_type> types,
 }
 
 VectorXd vec(std::initializer_list<double> v) {
-  VectorXd out(Index(v.size()));
-  Index i = 0;
-  for (double e : v) out(i++) = e;
-  return out;
+  return Eigen::Map<const VectorXd>(v.begin(), Index(v.size()));
 }
 
 qualify::slater_options from(const VectorXd& start,

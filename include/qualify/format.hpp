@@ -187,13 +187,17 @@ inline std::string render(const slater_report& r, bool full) {
     out += fmt::format("  verdict      {}; feasibility {}; strict interior {}; method {}\n",
                        r.verdict_name(), to_string(r.feasible), to_string(r.strict_interior),
                        r.method);
+    const bool phase_one = r.method.rfind("phase_one", 0) == 0;
     out += fmt::format(
         "  tolerances   margin {:.3g}, band {:.3g} (strict <= {:.3g}), feasibility "
-        "{:.3g} (relative), search radius {:.3g}\n",
+        "{:.3g} (relative)\n",
         r.margin_tolerance, r.undecided_band, -r.margin_tolerance * r.undecided_band,
-        r.feasibility_tolerance, r.search_radius);
-    out += fmt::format("  s* bounds    [{:.3g}, {:.3g}] (max g_i/w_i over the convex rows)\n",
-                       r.lower_bound, r.upper_bound);
+        r.feasibility_tolerance);
+    if (phase_one)
+      out += fmt::format(
+          "  s* bounds    [{:.3g}, {:.3g}] (max g_i/w_i over the convex rows), search radius "
+          "{:.3g}\n",
+          r.lower_bound, r.upper_bound, r.search_radius);
     if (r.point.size())
       out += fmt::format("  point        largest g_i/w_i {:.3g}, largest violation {:.3g}\n",
                          r.point_margin, r.point_violation);
@@ -210,7 +214,7 @@ inline std::string render(const slater_report& r, bool full) {
       out += "  affine used  " + join_rows(r.certificate_affine_rows, r.names) + "\n";
     }
     out += "  implicit eq  " + join_rows(r.implicit_equalities, r.names) + "\n";
-    if (r.method.rfind("phase_one", 0) == 0)
+    if (phase_one)
       out += fmt::format(
           "  phase one    {} Newton steps, {} centrings, t = {:.3g}, {} callback "
           "calls, {} steps outside the domain\n",

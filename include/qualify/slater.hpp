@@ -1149,12 +1149,11 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
     for (const auto& b : a.implicit_equalities) {
       implicit[std::size_t(b.index)] = 1;
       rep.implicit_equalities.push_back(b.index);
-      rep.findings.push_back({severity::warning,
-                              "implicit_equality",
-                              rep.names(b.index) + " holds with equality on the whole feasible "
-                                                   "set of the affine part (and of the model)",
-                              {b.index},
-                              {rep.names(b.index)}});
+      add_finding(rep.findings, severity::warning, "implicit_equality",
+                  rep.names(b.index) +
+                      " holds with equality on the whole feasible set of the affine part (and "
+                      "of the model)",
+                  {b.index}, rep.names);
     }
     if (a.result == verdict::holds) {
       y = a.strict_point;

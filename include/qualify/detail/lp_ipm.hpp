@@ -148,8 +148,10 @@ class dense_cholesky {
   /// With `pivot_floor`, pivots are instead raised to at least pivot_floor[j]: for
   /// G = F + B with F diagonal and B positive semidefinite every exact pivot is >= F_jj,
   /// so nothing is dropped and rounding cannot make a pivot vanish.
+  /// M's storage is swapped with the previous factor's, so that a caller passing the same
+  /// matrix each time reuses memory instead of faulting in fresh pages.
   void compute(Eigen::MatrixXd&& M, const Eigen::VectorXd* pivot_floor = nullptr) {
-    L_ = std::move(M);
+    L_.swap(M);
     const Eigen::Index m = L_.rows(), nb = 64;
     Eigen::VectorXd diag = L_.diagonal();
     dropped_ = 0;
@@ -553,6 +555,7 @@ class normal_equations {
     const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
     const Eigen::Index n = Ad_.cols();
     Eigen::VectorXd structural(n_slack);
+    Eigen::MatrixXd& G = work_;
     structural(dense_slacks_) = AI2_.transpose() * merged_;
     for (std::size_t q = 0; q < sparse_slacks_.size(); ++q) {
       double sum = 0;
@@ -574,9 +577,9 @@ class normal_equations {
         schur_theta.push_back(theta + delta);
       }
     }
-    Eigen::MatrixXd G = Eigen::MatrixXd::Zero(n, n);
-    G.selfadjointView<Eigen::Lower>().rankUpdate(
-        AI_ * theta_inv_(dense_slacks_).cwiseSqrt().asDiagonal());
+    G.setZero(n, n);
+    scaled_ = AI_ * theta_inv_(dense_slacks_).cwiseSqrt().asDiagonal();
+    G.selfadjointView<Eigen::Lower>().rankUpdate(scaled_);
     for (std::size_t q = 0; q < sparse_slacks_.size(); ++q) {  // lower triangle, by scatter
       const double t = theta_inv_[sparse_slacks_[q]];
       if (t == 0) continue;
@@ -669,6 +672,7 @@ class normal_equations {
   Eigen::MatrixXd AI_, AI2_, AEq_;        // A_I^T (dense slack rows), its squares, equality rows
   std::vector<Eigen::Index> schur_rows_;  // E: equality rows, then nearly active slack rows
   Eigen::MatrixXd AE_, W_E_;              // A_E^T and L^-1 A_E^T
+  Eigen::MatrixXd work_, scaled_;         // G and A_I^T Theta_I^-1/2, kept to reuse memory
   std::vector<Eigen::Index> dense_slacks_, sparse_slacks_;  // slacks by their row's entries
   std::vector<std::size_t> sparse_start_;  // entries of sparse_slacks_[q]: [start_q, start_q+1)
   std::vector<std::pair<Eigen::Index, double>> sparse_entries_;  // (column of Ad_, value)
