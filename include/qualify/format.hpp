@@ -214,6 +214,58 @@ inline std::string render(const derivative_check_report& r, bool full) {
   return out + render_findings(r.findings);
 }
 
+inline std::string render(const slater_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  out += fmt::format(
+      "  model        {} variables, {} constraints: {} convex, {} affine "
+      "inequalities, {} equalities\n",
+      r.variables, r.constraints, r.convex_rows.size(), r.affine_rows.size(),
+      r.equality_rows.size());
+  if (!r.not_convex_rows.empty())
+    out += "  not convex   " + join_rows(r.not_convex_rows, r.names) + "\n";
+  if (r.result != verdict::invalid_input && r.result != verdict::not_checked) {
+    out += fmt::format("  verdict      {}; feasibility {}; strict interior {}; method {}\n",
+                       r.verdict_name(), to_string(r.feasible), to_string(r.strict_interior),
+                       r.method);
+    const bool phase_one = r.method.rfind("phase_one", 0) == 0;
+    out += fmt::format(
+        "  tolerances   margin {:.3g}, band {:.3g} (strict <= {:.3g}), feasibility "
+        "{:.3g} (relative)\n",
+        r.margin_tolerance, r.undecided_band, -r.margin_tolerance * r.undecided_band,
+        r.feasibility_tolerance);
+    if (phase_one)
+      out += fmt::format(
+          "  s* bounds    [{:.3g}, {:.3g}] (max g_i/w_i over the convex rows), search radius "
+          "{:.3g}\n",
+          r.lower_bound, r.upper_bound, r.search_radius);
+    if (r.point.size())
+      out += fmt::format("  point        largest g_i/w_i {:.3g}, largest violation {:.3g}\n",
+                         r.point_margin, r.point_violation);
+    if (r.interior_point.size())
+      out += fmt::format("  interior     smallest relative slack {:.3g}\n", r.interior_slack);
+    if (r.certificate_point.size()) {
+      out += fmt::format("  certificate  phi {:.3g}, |grad phi| {:.3g}, proof radius {:.3g}\n",
+                         r.certificate_value, r.certificate_gradient, r.proof_radius);
+      std::string pinch;
+      for (Index i : r.pinching)
+        pinch +=
+            fmt::format("{}{} ({:.3g})", pinch.empty() ? "" : ", ", r.names(i), r.multipliers[i]);
+      out += "  pinching     " + (pinch.empty() ? std::string("none") : pinch) + "\n";
+      out += "  affine used  " + join_rows(r.certificate_affine_rows, r.names) + "\n";
+    }
+    out += "  implicit eq  " + join_rows(r.implicit_equalities, r.names) + "\n";
+    if (phase_one)
+      out += fmt::format(
+          "  phase one    {} Newton steps, {} centrings, t = {:.3g}, {} callback "
+          "calls, {} steps outside the domain\n",
+          r.newton_steps, r.barrier_rounds, r.barrier_parameter, r.callback_evaluations,
+          r.domain_exits);
+    if (r.affine) out += "  affine part  " + r.affine->message + "\n";
+  }
+  return out + render_findings(r.findings);
+}
+
 inline std::string render(const kkt_report& r, bool full) {
   if (!full) return r.message + brief_suffix(r.findings);
   std::string out = r.message + "\n";
@@ -329,3 +381,5 @@ template <>
 struct fmt::formatter<qualify::derivative_check_report> : qualify::detail::report_formatter {};
 template <>
 struct fmt::formatter<qualify::kkt_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::slater_report> : qualify::detail::report_formatter {};

@@ -519,6 +519,55 @@ inline void write_body(json_writer& w, const kkt_report& r) {
   write_findings(w, r.findings);
 }
 
+inline void write_body(json_writer& w, const slater_report& r) {
+  auto names = [&](const std::vector<Index>& rows) { return r.names(rows); };
+  w.field("check", "slater_model")
+      .field("verdict", r.verdict_name())
+      .field("message", r.message)
+      .field("method", r.method)
+      .field("feasibility", to_string(r.feasible))
+      .field("strict_interior", to_string(r.strict_interior))
+      .field("variables", r.variables)
+      .field("constraints", r.constraints)
+      .field("convex_rows", r.convex_rows)
+      .field("affine_rows", r.affine_rows)
+      .field("equality_rows", r.equality_rows)
+      .field("not_convex_rows", r.not_convex_rows)
+      .field("margin_tolerance", r.margin_tolerance)
+      .field("undecided_band", r.undecided_band)
+      .field("feasibility_tolerance", r.feasibility_tolerance)
+      .field("search_radius", r.search_radius);
+  write_vector(w, "weights", r.weights);
+  w.field("upper_bound", r.upper_bound).field("lower_bound", r.lower_bound);
+  write_vector(w, "point", r.point);
+  write_vector(w, "point_values", r.point_values);
+  w.field("point_margin", r.point_margin).field("point_violation", r.point_violation);
+  write_vector(w, "interior_point", r.interior_point);
+  w.field("interior_slack", r.interior_slack);
+  write_vector(w, "multipliers", r.multipliers);
+  write_vector(w, "certificate_point", r.certificate_point);
+  w.field("certificate_value", r.certificate_value)
+      .field("certificate_gradient", r.certificate_gradient)
+      .field("proof_radius", r.proof_radius)
+      .field("pinching_rows", r.pinching)
+      .field("pinching", names(r.pinching))
+      .field("certificate_affine_rows", r.certificate_affine_rows)
+      .field("implicit_equality_rows", r.implicit_equalities)
+      .field("implicit_equalities", names(r.implicit_equalities));
+  if (r.affine) {
+    w.key("affine").begin_object();
+    write_body(w, *r.affine);
+    w.end_object();
+  }
+  w.field("newton_steps", r.newton_steps)
+      .field("barrier_rounds", r.barrier_rounds)
+      .field("barrier_parameter", r.barrier_parameter)
+      .field("callback_evaluations", r.callback_evaluations)
+      .field("domain_exits", r.domain_exits)
+      .field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
 template <class Report>
 std::string report_json(const Report& r) {
   json_writer w;
@@ -539,6 +588,7 @@ inline std::string to_json(const lp_result& r) { return detail::report_json(r); 
 inline std::string to_json(const affine_slater_report& r) { return detail::report_json(r); }
 inline std::string to_json(const derivative_check_report& r) { return detail::report_json(r); }
 inline std::string to_json(const kkt_report& r) { return detail::report_json(r); }
+inline std::string to_json(const slater_report& r) { return detail::report_json(r); }
 inline std::string to_json(const qualification_report& r) {
   detail::json_writer w;
   w.begin_object().field("schema_version", json_schema_version).key("licq").begin_object();
