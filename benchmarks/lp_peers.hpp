@@ -17,6 +17,8 @@
 #include <string>
 #include <vector>
 
+#include "timing.hpp"
+
 namespace qualify_bench {
 
 /// min c^T x + c0 s.t. row_lower <= A x <= row_upper, col_lower <= x <= col_upper; `dense`
@@ -28,24 +30,6 @@ struct bench_lp {
   double c0 = 0;
   bool dense = false;
 };
-
-inline double seconds_since(std::chrono::steady_clock::time_point t0) {
-  return std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
-}
-
-/// The best time of up to 5 runs of `fn`, stopping once about `budget` seconds are spent.
-template <class Fn>
-double best_time(Fn&& fn, double budget = 1.0) {
-  double best = 1e300, spent = 0;
-  for (int k = 0; k < 5 && (k == 0 || spent < budget); ++k) {
-    const auto t0 = std::chrono::steady_clock::now();
-    fn();
-    const double t = seconds_since(t0);
-    best = std::min(best, t);
-    spent += t;
-  }
-  return best;
-}
 
 /// Our engine on the LP, timed as above; `result` gets the last solve.
 inline double time_ours(const bench_lp& p, qualify::lp_result& result) {
