@@ -9,6 +9,7 @@
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
+#include <cstddef>
 #include <limits>
 #include <optional>
 #include <string>
@@ -24,6 +25,7 @@ enum class rank_method {
   deflated_qr,        ///< R with its rounding-level columns moved last, confirmed by bounds
   pivoted_qr,         ///< column-pivoted QR, confirmed by bounds on both sides of the gap
   svd,                ///< singular values, used when the pivoted QR left the gap unclear
+  sparse_qr,          ///< SPQR's sparse QR of J^T (sparse_licq.hpp), confirmed by estimates
 };
 
 constexpr std::string_view to_string(rank_method m) noexcept {
@@ -32,6 +34,7 @@ constexpr std::string_view to_string(rank_method m) noexcept {
     case rank_method::deflated_qr: return "deflated_qr";
     case rank_method::pivoted_qr: return "pivoted_qr";
     case rank_method::svd: return "svd";
+    case rank_method::sparse_qr: return "sparse_qr";
     case rank_method::none: break;
   }
   return "none";
@@ -63,6 +66,10 @@ struct licq_options {
   /// A holding verdict carries an `ill_conditioned` warning when sigma_min of the normalised
   /// rows is below this. Automatic (nullopt): sqrt(eps) (common practice, no source).
   std::optional<double> ill_conditioned_below;
+  /// Sparse Jacobians (sparse_licq.hpp): the dense core checks the matrix when rows * cols
+  /// <= this (16M entries, 128 MiB of doubles): without SPQR always, with SPQR only when the
+  /// sparse decision is unclear. Larger unclear cases are reported undecided.
+  std::size_t sparse_dense_limit = std::size_t(1) << 24;
   /// Used by the overload that picks active rows from constraint values.
   activity_options activity;
 
@@ -274,6 +281,75 @@ rank_decision<Scalar> decide_rank_deflated(const matrix<Scalar>& t, Scalar tau, 
   return out;
 }
 
+/// The verdict from a rank decision on k non-zero unit rows in n variables: full rank needs
+/// every row, zero rows included, to be independent, with sigma_min proven >= band * tau; one
+/// neglected direction proven <= tau suffices to fail.
+template <class Scalar>
+void set_verdict(licq_report& rep, Index k, Index n, const rank_decision<Scalar>& decision,
+                 Scalar tau, Scalar band) {
+  const Index r = decision.rank;
+  const bool structural = !rep.zero_rows.empty() || k > n;
+  if (!structural && r == k && (k == 0 || decision.kept_lower >= band * tau)) {
+    rep.result = verdict::holds;
+    rep.deciding_value = double(decision.kept_lower);
+  } else if (structural || (r < k && decision.dropped_upper <= tau)) {
+    rep.result = verdict::fails;
+    rep.deciding_value = structural ? 0.0 : double(decision.dropped_upper);
+  } else {
+    rep.result = verdict::undecided;
+    rep.deciding_value = double(r == k ? decision.kept_lower : decision.dropped_upper);
+  }
+  rep.margin = rep.deciding_value / double(tau);
+}
+
+/// Which row of a parallel pair is called dependent is arbitrary (pivoting picks by norm);
+/// a person expects the later row (the copy) to be the dependent one, so swap roles. Zero
+/// rows come first in `rep.dependencies` and are skipped.
+inline void orient_parallel_pairs(licq_report& rep) {
+  for (std::size_t a = rep.zero_rows.size(); a < rep.dependencies.size(); ++a) {
+    auto& dep = rep.dependencies[a];
+    if (dep.terms.size() != 1 || dep.terms[0].row < dep.row) continue;
+    const Index kept_row = dep.terms[0].row;
+    const double c = dep.terms[0].coefficient;  // g_dep = c * g_kept
+    for (auto& other : rep.dependencies)
+      for (auto& t : other.terms)
+        if (t.row == kept_row && &other != &dep) t = {dep.row, t.coefficient / c};
+    std::replace(rep.independent_rows.begin(), rep.independent_rows.end(), kept_row, dep.row);
+    dep = {kept_row, {{dep.row, 1.0 / c}}, dep.residual};
+  }
+}
+
+/// Files rows a, b (caller's numbering, row norms norm_a, norm_b) as duplicated, parallel or
+/// opposed when the chord of their unit directions is within parallel_tol.
+template <class Scalar>
+void record_pair(licq_report& rep, Index a, Index b, Scalar cosine, Scalar chord, Scalar norm_a,
+                 Scalar norm_b, Scalar parallel_tol) {
+  using std::abs;
+  if (chord > parallel_tol) return;
+  // Pairs are listed with the lower row first: g_second ~ ratio * g_first.
+  const bool a_first = a < b;
+  const Scalar ratio = (cosine > 0 ? 1 : -1) * (a_first ? norm_b / norm_a : norm_a / norm_b);
+  row_pair pair{a_first ? a : b, a_first ? b : a, double(ratio)};
+  if (cosine < 0)
+    rep.opposed_rows.push_back(pair);
+  else if (abs(ratio - Scalar(1)) <= parallel_tol)
+    rep.duplicate_rows.push_back(pair);
+  else
+    rep.parallel_rows.push_back(pair);
+}
+
+/// Row lists in the report in increasing row order.
+inline void sort_rows(licq_report& rep) {
+  const auto by_rows = [](const row_pair& x, const row_pair& y) {
+    return x.first != y.first ? x.first < y.first : x.second < y.second;
+  };
+  for (auto* list : {&rep.duplicate_rows, &rep.parallel_rows, &rep.opposed_rows})
+    std::sort(list->begin(), list->end(), by_rows);
+  std::sort(rep.independent_rows.begin(), rep.independent_rows.end());
+  std::sort(rep.dependencies.begin(), rep.dependencies.end(),
+            [](const row_dependence& x, const row_dependence& y) { return x.row < y.row; });
+}
+
 /// The LICQ analysis of the rows of `jac`; `global` maps its rows to the caller's numbering
 /// (empty: the identity). Inputs have been validated.
 template <class Scalar>
@@ -364,20 +440,7 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
                              ? rep.largest_singular_value / rep.smallest_singular_value
                              : std::numeric_limits<double>::infinity();
 
-  // The verdict: full rank needs every row, zero rows included, to be independent, with
-  // sigma_min proven >= band * tau; one neglected direction proven <= tau suffices to fail.
-  const bool structural = !rep.zero_rows.empty() || k > n;
-  if (!structural && r == k && (k == 0 || decision.kept_lower >= band * tau)) {
-    rep.result = verdict::holds;
-    rep.deciding_value = double(decision.kept_lower);
-  } else if (structural || (r < k && decision.dropped_upper <= tau)) {
-    rep.result = verdict::fails;
-    rep.deciding_value = structural ? 0.0 : double(decision.dropped_upper);
-  } else {
-    rep.result = verdict::undecided;
-    rep.deciding_value = double(r == k ? decision.kept_lower : decision.dropped_upper);
-  }
-  rep.margin = rep.deciding_value / double(tau);
+  set_verdict<Scalar>(rep, k, n, decision, tau, band);
 
   // Independent rows and the explanation of every dependent one on them.
   for (Index c = 0; c < r; ++c) rep.independent_rows.push_back(to_global(kept[decision.order[c]]));
@@ -413,19 +476,7 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
       rep.dependencies.push_back(std::move(dep));
     }
 
-    // Which row of a parallel pair is called dependent is arbitrary (pivoting picks by norm);
-    // a person expects the later row (the copy) to be the dependent one, so swap roles.
-    for (std::size_t a = rep.zero_rows.size(); a < rep.dependencies.size(); ++a) {
-      auto& dep = rep.dependencies[a];
-      if (dep.terms.size() != 1 || dep.terms[0].row < dep.row) continue;
-      const Index kept_row = dep.terms[0].row;
-      const double c = dep.terms[0].coefficient;  // g_dep = c * g_kept
-      for (auto& other : rep.dependencies)
-        for (auto& t : other.terms)
-          if (t.row == kept_row && &other != &dep) t = {dep.row, t.coefficient / c};
-      std::replace(rep.independent_rows.begin(), rep.independent_rows.end(), kept_row, dep.row);
-      dep = {kept_row, {{dep.row, 1.0 / c}}, dep.residual};
-    }
+    orient_parallel_pairs(rep);
 
     // Duplicated, parallel and opposed pairs: one side of every such pair is dependent.
     // Cosines by matrix products; the exact chord only for the few pairs that are close.
@@ -436,18 +487,8 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
     const auto classify = [&](Index a, Index b, Scalar cosine, const auto& ua, const auto& ub) {
       if (abs(cosine) < Scalar(0.5)) return;
       const Scalar chord = cosine > 0 ? (ua - ub).norm() : (ua + ub).norm();
-      if (chord > parallel_tol) return;
-      // Pairs are listed with the lower row first: g_second ~ ratio * g_first.
-      const bool a_first = to_global(a) < to_global(b);
-      const Index first = a_first ? a : b, second = a_first ? b : a;
-      const Scalar ratio = (cosine > 0 ? 1 : -1) * norms(second) / norms(first);
-      row_pair pair{to_global(first), to_global(second), double(ratio)};
-      if (cosine < 0)
-        rep.opposed_rows.push_back(pair);
-      else if (abs(ratio - Scalar(1)) <= parallel_tol)
-        rep.duplicate_rows.push_back(pair);
-      else
-        rep.parallel_rows.push_back(pair);
+      record_pair<Scalar>(rep, to_global(a), to_global(b), cosine, chord, norms(a), norms(b),
+                          parallel_tol);
     };
     for (Index c = 0; c < d; ++c) {
       const Index a = kept[decision.order[r + c]];
@@ -456,15 +497,8 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
         classify(a, b, cosines(c, b) / norms(b), unit_dep.row(c), jac.row(b) / norms(b));
       }
     }
-    const auto by_rows = [](const row_pair& x, const row_pair& y) {
-      return x.first != y.first ? x.first < y.first : x.second < y.second;
-    };
-    for (auto* list : {&rep.duplicate_rows, &rep.parallel_rows, &rep.opposed_rows})
-      std::sort(list->begin(), list->end(), by_rows);
   }
-  std::sort(rep.independent_rows.begin(), rep.independent_rows.end());
-  std::sort(rep.dependencies.begin(), rep.dependencies.end(),
-            [](const row_dependence& x, const row_dependence& y) { return x.row < y.row; });
+  sort_rows(rep);
 
   // The same decision on the gradients as given: sigma_i(D U) lies within
   // [min D, max D] * sigma_i(U), so the normalised bounds settle it unless rows are badly
