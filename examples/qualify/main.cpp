@@ -13,8 +13,8 @@
 #include <qualify/format.hpp>
 #include <qualify/json.hpp>
 #include <qualify/licq.hpp>
-#include <qualify/lp.hpp>
 #include <qualify/mfcq.hpp>
+#include <qualify/lp.hpp>
 #include <qualify/mps.hpp>
 #include <qualify/slater.hpp>
 #include <qualify/sparse_licq.hpp>
