@@ -302,20 +302,104 @@ void set_verdict(licq_report& rep, Index k, Index n, const rank_decision<Scalar>
   rep.margin = rep.deciding_value / double(tau);
 }
 
-/// Which row of a parallel pair is called dependent is arbitrary (pivoting picks by norm);
-/// a person expects the later row (the copy) to be the dependent one, so swap roles. Zero
-/// rows come first in `rep.dependencies` and are skipped.
-inline void orient_parallel_pairs(licq_report& rep) {
-  for (std::size_t a = rep.zero_rows.size(); a < rep.dependencies.size(); ++a) {
-    auto& dep = rep.dependencies[a];
-    if (dep.terms.size() != 1 || dep.terms[0].row < dep.row) continue;
-    const Index kept_row = dep.terms[0].row;
-    const double c = dep.terms[0].coefficient;  // g_dep = c * g_kept
-    for (auto& other : rep.dependencies)
-      for (auto& t : other.terms)
-        if (t.row == kept_row && &other != &dep) t = {dep.row, t.coefficient / c};
-    std::replace(rep.independent_rows.begin(), rep.independent_rows.end(), kept_row, dep.row);
-    dep = {kept_row, {{dep.row, 1.0 / c}}, dep.residual};
+/// Names the latest row of every dependence as the dependent one: the choice a person expects
+/// (a constraint imported again, a later row restating earlier ones), and the same whichever
+/// order the factorisation pivoted in, dense or sparse. When an explanation g_d = sum c_t g_t
+/// has a term row L > d, d and L exchange roles (g_L = (g_d - sum_{t != L} c_t g_t) / c_L, and
+/// the other explanations that use g_L are rewritten on the new basis), but only when the
+/// results check out, with residuals recomputed from the gradients by `residual(row, terms)`
+/// (relative to ||g_row||):
+/// - the new explanation of L: residual <= max(band * tau, the old one of d). An exchange on a
+///   small c_L divides the old residual by it and fails this, so a row is not named dependent
+///   on rows it is barely related to. (Not tau itself: an explanation of T terms rounds at
+///   about T * eps * sum |c_t| ||g_t|| / ||g_d||, above tau = max(m, n) * eps on dense rows.)
+/// - each rewritten explanation: its backward error residual / (1 + sum |c_t| ||g_t|| /
+///   ||g_row||) <= max(band * tau, the old one's). A rewrite adds a_L times the new residual
+///   of L, which its own coefficients magnify; the backward error measures it against them.
+/// Each exchange puts an earlier row in the basis in place of a later one, so the loop ends;
+/// when no exchange is left, every dependent row comes after the rows that explain it, which
+/// makes the independent rows the greedy basis (row i is dependent exactly when it is a
+/// combination of rows before it; the basis exchange property of linear independence).
+/// `norm(row)` is ||g_row||_2: terms whose coefficient on unit gradients falls to <= tau are
+/// omitted, as the factorisations omit them. Zero rows (no terms) stay as they are.
+template <class Residual, class Norm>
+void orient_dependencies(licq_report& rep, double tau, double band, Residual&& residual,
+                         Norm&& norm) {
+  using term = row_dependence::term;
+  // sum of weight * terms, merged by row, tiny terms (on unit gradients, relative to
+  // g_owner) dropped.
+  const auto combine = [&](Index owner,
+                           std::vector<std::pair<double, const std::vector<term>*>> parts) {
+    std::vector<term> all, out;
+    for (const auto& [weight, list] : parts)
+      for (const auto& t : *list) all.push_back({t.row, weight * t.coefficient});
+    std::stable_sort(all.begin(), all.end(),
+                     [](const term& a, const term& b) { return a.row < b.row; });
+    for (const term& t : all) {
+      if (!out.empty() && out.back().row == t.row)
+        out.back().coefficient += t.coefficient;
+      else
+        out.push_back(t);
+    }
+    const double owner_norm = double(norm(owner));
+    out.erase(
+        std::remove_if(out.begin(), out.end(),
+                       [&](const term& t) {
+                         return t.row == owner ||
+                                !(std::abs(t.coefficient) * double(norm(t.row)) > tau * owner_norm);
+                       }),
+        out.end());
+    std::sort(out.begin(), out.end(), [](const term& a, const term& b) {
+      return std::abs(a.coefficient) > std::abs(b.coefficient);
+    });
+    return out;
+  };
+  const auto backward_error = [&](const row_dependence& dep) {
+    double size = 1;
+    const double own = double(norm(dep.row));
+    for (const term& t : dep.terms) size += std::abs(t.coefficient) * double(norm(t.row)) / own;
+    return dep.residual / size;
+  };
+  const std::size_t limit = 4 * rep.dependencies.size() * (rep.dependencies.size() + 1) + 16;
+  for (std::size_t round = 0, changed = 1; changed && round < limit; ++round) {
+    changed = 0;
+    for (std::size_t a = 0; a < rep.dependencies.size(); ++a) {
+      row_dependence& dep = rep.dependencies[a];
+      const auto latest =
+          std::max_element(dep.terms.begin(), dep.terms.end(),
+                           [](const term& x, const term& y) { return x.row < y.row; });
+      if (latest == dep.terms.end() || latest->row < dep.row || latest->coefficient == 0) continue;
+      const Index l = latest->row;
+      const double c = latest->coefficient;
+      // g_l = (1 / c) g_d - sum_{t != l} (c_t / c) g_t
+      const std::vector<term> own{{dep.row, 1.0}}, single{{l, 1.0}};
+      row_dependence swapped{l, combine(l, {{1.0 / c, &own}, {-1.0 / c, &dep.terms}}), 0.0};
+      swapped.residual = double(residual(l, swapped.terms));
+      if (!(swapped.residual <= std::max(band * tau, dep.residual))) continue;
+      std::vector<std::pair<std::size_t, row_dependence>> rewritten;
+      bool valid = true;
+      for (std::size_t e = 0; e < rep.dependencies.size() && valid; ++e) {
+        const row_dependence& other = rep.dependencies[e];
+        if (e == a) continue;
+        const auto uses = std::find_if(other.terms.begin(), other.terms.end(),
+                                       [&](const term& t) { return t.row == l; });
+        if (uses == other.terms.end()) continue;
+        // g_e = sum_t a_t g_t with a_l g_l replaced by a_l (sum of swapped's terms)
+        const double weight = uses->coefficient;
+        row_dependence next{
+            other.row,
+            combine(other.row, {{1.0, &other.terms}, {-weight, &single}, {weight, &swapped.terms}}),
+            0.0};
+        next.residual = double(residual(next.row, next.terms));
+        valid = backward_error(next) <= std::max(band * tau, backward_error(other));
+        rewritten.push_back({e, std::move(next)});
+      }
+      if (!valid) continue;
+      std::replace(rep.independent_rows.begin(), rep.independent_rows.end(), l, dep.row);
+      dep = std::move(swapped);
+      for (auto& [e, next] : rewritten) rep.dependencies[e] = std::move(next);
+      changed = 1;
+    }
   }
 }
 
@@ -476,7 +560,21 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
       rep.dependencies.push_back(std::move(dep));
     }
 
-    orient_parallel_pairs(rep);
+    // The caller's rows back to the rows of jac, for the explanations' rewriting.
+    const auto local = [&](Index row) {
+      return global.empty()
+                 ? row
+                 : Index(std::lower_bound(global.begin(), global.end(), row) - global.begin());
+    };
+    orient_dependencies(
+        rep, double(tau), double(band),
+        [&](Index row, const std::vector<row_dependence::term>& terms) {
+          vector<Scalar> w = jac.row(local(row)).transpose();
+          for (const auto& t : terms)
+            w -= Scalar(t.coefficient) * jac.row(local(t.row)).transpose();
+          return double(w.stableNorm() / norms(local(row)));
+        },
+        [&](Index row) { return double(norms(local(row))); });
 
     // Duplicated, parallel and opposed pairs: one side of every such pair is dependent.
     // Cosines by matrix products; the exact chord only for the few pairs that are close.
@@ -628,15 +726,13 @@ void check_scalar() {
 
 namespace detail {
 
-/// The report both overloads start from: sizes, names, and the checks of the options, the
-/// labels and the entries; `result` is invalid_input when one of them fails.
-template <class Derived>
-licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const licq_options& options,
-                           std::vector<std::string> labels) {
-  check_scalar<Derived>();
+/// The report every check_licq starts from: sizes, names, and the checks of the options, the
+/// labels and the column count; `result` is invalid_input when one of them fails.
+inline licq_report licq_start(Index rows, Index cols, const licq_options& options,
+                              std::vector<std::string> labels) {
   licq_report rep;
-  rep.rows = jacobian.rows();
-  rep.cols = jacobian.cols();
+  rep.rows = rows;
+  rep.cols = cols;
   rep.relative_threshold_requested = options.relative_threshold;
   const std::size_t label_count = labels.size();
   rep.names = row_names(std::move(labels));
@@ -645,9 +741,34 @@ licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const lic
     return invalid_licq(rep, "label_count", count_message(label_count, "labels", rep.rows));
   if (rep.cols == 0)
     return invalid_licq(rep, "empty_jacobian", "the Jacobian has no columns (variables)");
+  return rep;
+}
+
+/// The report both dense overloads start from: licq_start's checks and finite entries.
+template <class Derived>
+licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const licq_options& options,
+                           std::vector<std::string> labels) {
+  check_scalar<Derived>();
+  licq_report rep = licq_start(jacobian.rows(), jacobian.cols(), options, std::move(labels));
+  if (rep.result == verdict::invalid_input) return rep;
   if (auto bad = non_finite_message(jacobian, "Jacobian"))
     return invalid_licq(rep, "non_finite_entry", *bad);
   return rep;
+}
+
+/// The invalid_input report when constraint values or types do not fit the rows of `rep`.
+template <class DerivedV>
+std::optional<licq_report> point_input_problem(const licq_report& rep,
+                                               const Eigen::MatrixBase<DerivedV>& values,
+                                               const std::vector<constraint_type>& types) {
+  if (values.cols() != 1 || values.rows() != rep.rows)
+    return invalid_licq(rep, "value_count",
+                        count_message(std::size_t(values.size()), "values", rep.rows));
+  if (types.size() != std::size_t(rep.rows))
+    return invalid_licq(rep, "type_count", count_message(types.size(), "types", rep.rows));
+  if (auto bad = non_finite_message(values, "value"))
+    return invalid_licq(rep, "non_finite_entry", *bad);
+  return std::nullopt;
 }
 
 }  // namespace detail
@@ -678,13 +799,7 @@ licq_report check_licq(const Eigen::MatrixBase<DerivedJ>& jacobian,
   using Scalar = typename DerivedJ::Scalar;
   licq_report rep = detail::validated_licq(jacobian, options, std::move(labels));
   if (rep.result == verdict::invalid_input) return rep;
-  if (values.cols() != 1 || values.rows() != rep.rows)
-    return detail::invalid_licq(rep, "value_count",
-                                detail::count_message(std::size_t(values.size()), "values", rep.rows));
-  if (types.size() != std::size_t(rep.rows))
-    return detail::invalid_licq(rep, "type_count", detail::count_message(types.size(), "types", rep.rows));
-  if (auto bad = detail::non_finite_message(values, "value"))
-    return detail::invalid_licq(rep, "non_finite_entry", *bad);
+  if (auto bad = detail::point_input_problem(rep, values, types)) return *bad;
 
   const Eigen::Ref<const detail::matrix<Scalar>> full(jacobian);
   const detail::vector<Scalar> vals = values.template cast<Scalar>();
