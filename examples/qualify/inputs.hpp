@@ -38,6 +38,13 @@ struct jacobian_input {
   std::optional<Eigen::MatrixXd> dense;
   std::optional<Eigen::SparseMatrix<double>> sparse;
   Eigen::Index rows() const { return dense ? dense->rows() : sparse->rows(); }
+  Eigen::Index cols() const { return dense ? dense->cols() : sparse->cols(); }
+  /// Holds the matrix sparse from now on (to check it beside a sparse one).
+  void make_sparse() {
+    if (!dense) return;
+    sparse = dense->sparseView(0.0, 0.0);
+    dense.reset();
+  }
 };
 
 /// The Jacobian in a Matrix Market file ('-': standard input). Coordinate files are assembled

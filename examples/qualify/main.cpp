@@ -151,7 +151,8 @@ const qualify_cli::command_spec mfcq_spec{
     ">= 0 summing to 1 and mu with A^T lambda + E^T mu = 0 (a positive linear dependence).\n"
     "\n"
     "The files are Matrix Market (NISTIR 5935), as for 'qualify licq'; '-' reads standard\n"
-    "input (for one of them). Each matrix is held dense.\n",
+    "input (for one of them). When either file is in coordinate form, both are held\n"
+    "sparse and checked by the sparse path; two array files are held dense.\n",
     "Output: the full report on stdout (verdict, t*, the direction's margin, the certificate\n"
     "and the rows it names, the rank of E, LICQ on [A; E] for comparison). With --json, one\n"
     "JSON object on one line instead, with the keys schema_version, check, verdict,\n"
@@ -180,23 +181,29 @@ int run_mfcq(const invocation& in) {
     if (!read) return in.fail(read.error());
     labels = std::move(*read);
   }
-  auto ineq_read = qualify_cli::read_jacobian(*ineq_path);
-  if (!ineq_read) return in.fail(ineq_read.error());
-  const Eigen::MatrixXd ineq =
-      ineq_read->dense ? *ineq_read->dense : Eigen::MatrixXd(*ineq_read->sparse);
-  Eigen::MatrixXd eq(0, ineq.cols());
+  auto ineq = qualify_cli::read_jacobian(*ineq_path);
+  if (!ineq) return in.fail(ineq.error());
+  qualify_cli::jacobian_input eq;
+  eq.dense = Eigen::MatrixXd(0, ineq->cols());
   if (eq_path) {
     auto read = qualify_cli::read_jacobian(*eq_path);
     if (!read) return in.fail(read.error());
-    eq = read->dense ? *read->dense : Eigen::MatrixXd(*read->sparse);
+    eq = std::move(*read);
   }
   const std::string shown =
       shown_name(*ineq_path) + (eq_path ? " and " + shown_name(*eq_path) : "");
-  const auto rows = static_cast<std::size_t>(ineq.rows() + eq.rows());
+  const auto rows = static_cast<std::size_t>(ineq->rows() + eq.rows());
   if (labels_path && labels.size() != rows)
     return in.fail(label_count_problem(*labels_path, labels.size(), rows, shown));
 
-  const qualify::mfcq_report report = qualify::check_mfcq(ineq, eq, options, std::move(labels));
+  // A coordinate file is checked sparse, and the other matrix with it.
+  if (ineq->sparse || eq.sparse) {
+    ineq->make_sparse();
+    eq.make_sparse();
+  }
+  const qualify::mfcq_report report =
+      ineq->sparse ? qualify::check_mfcq(*ineq->sparse, *eq.sparse, options, std::move(labels))
+                   : qualify::check_mfcq(*ineq->dense, *eq.dense, options, std::move(labels));
   if (report.result == qualify::verdict::invalid_input)
     return in.fail(
         {exit_code::data, shown + ": " + report.message,
