@@ -29,7 +29,11 @@
 #include <type_traits>
 #include <vector>
 
+#include "timing.hpp"
+
 namespace {
+
+using qualify_bench::best_of;
 
 using Eigen::Index;
 using Eigen::MatrixXd;
@@ -39,24 +43,6 @@ struct timing {
   Index rank = -1;
   std::string note;
 };
-
-template <class F>
-timing best_of(F&& run) {
-  timing best;
-  best.seconds = std::numeric_limits<double>::infinity();
-  double spent = 0;
-  for (int r = 0; r < 5 && (r == 0 || spent < 1.0); ++r) {
-    auto start = std::chrono::steady_clock::now();
-    timing t = run();
-    std::chrono::duration<double> took = std::chrono::steady_clock::now() - start;
-    spent += took.count();
-    if (took.count() < best.seconds) {
-      best = t;
-      best.seconds = took.count();
-    }
-  }
-  return best;
-}
 
 double peak_rss_mib() {
   rusage usage{};

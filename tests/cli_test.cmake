@@ -2,7 +2,7 @@
 # SPDX-License-Identifier: MIT
 #
 # cmake -DQUALIFY=<the qualify binary> -DGROUP=<verdicts|json|labels|errors|usage|mfcq|lp|slater|
-#       sparse> [-DSPQR=<ON when qualify was built with SPQR>]
+#       kkt|sparse> [-DSPQR=<ON when qualify was built with SPQR>]
 #       -DWORK_DIR=<scratch folder> -DVERSION=<project version> [-DJQ=<jq>] -P cli_test.cmake
 # Every check runs the binary and compares its exit status exactly, so a crash (a signal name
 # instead of a number) fails. JSON is parsed with string(JSON) and, when jq is found, also by
@@ -917,6 +917,147 @@ COLUMNS
   run(--help)
   expect_rc(0)
   expect_in(out "  ${command} ")
+
+elseif(GROUP STREQUAL "kkt")
+  # The farm-tank example of the README (hand-checked: grad f = (8, 8) = 8 (1, 1); only
+  # demand is active; on null((-1, -1)) the Hessian diag(2, 4) gives 3 > 0; declared convex).
+  set(tank_constraints "[
+    { \"name\": \"demand\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [-1, -1] },
+    { \"name\": \"roof_space\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": -3, \"gradient\": [0, 1] },
+    { \"name\": \"shade\", \"type\": \"ineq\", \"kind\": \"convex\", \"value\": -2.2,
+      \"gradient\": [0.4, 1], \"hessian\": [[0.1, 0], [0, 0]] } ]")
+  write(tank.json "{ \"x\": [4, 2], \"objective\": { \"gradient\": [8, 8], \"hessian\": [[2, 0], [0, 4]] },
+  \"constraints\": ${tank_constraints},
+  \"multipliers\": { \"demand\": 8, \"roof_space\": 0, \"shade\": 0 }, \"convex_model\": true }\n")
+  run(kkt tank.json)
+  expect_rc(0)
+  expect_in(out "global minimiser: a KKT point")
+  expect_in(out "  active       demand\n")
+  expect_in(out "  second order sufficient")
+  run(kkt tank.json --json)
+  expect_rc(0)
+  expect_json()
+  expect_key(kkt check)
+  expect_key(holds verdict)
+  expect_key(global_min classification)
+  expect_key(given multiplier_source)
+  expect_key(8 multipliers demand)
+  expect_key(0 multipliers shade)
+  expect_key(demand active 0)
+  expect_length(1 active)
+  expect_length(0 weakly_active)
+  expect_key(holds licq)
+  expect_key(holds mfcq)
+  expect_key(sufficient second_order)
+  expect_key(holds residuals stationarity verdict)
+  expect_type(NUMBER residuals primal scaled)
+  expect_type(NUMBER residuals dual threshold)
+  expect_type(NUMBER residuals complementarity raw)
+  expect_length(5 premises)
+  # Standard input, and the multipliers left out: estimated, the same answer.
+  write(tank_estimated.json "{ \"x\": [4, 2], \"objective\": { \"gradient\": [8, 8], \"hessian\": [[2, 0], [0, 4]] },
+  \"constraints\": ${tank_constraints}, \"convex_model\": true }\n")
+  run(INPUT tank_estimated.json kkt - --json)
+  expect_rc(0)
+  expect_key(estimated multiplier_source)
+  expect_type(NUMBER multipliers demand)
+  expect_key(global_min classification)
+
+  # Not a KKT point: at (5, 1) demand is active, but grad f = (10, 4) is no multiple of
+  # (1, 1); LICQ holds, so the point is not a minimiser (hand-checked).
+  write(off.json "{ \"x\": [5, 1], \"objective\": { \"gradient\": [10, 4] }, \"constraints\": [
+    { \"name\": \"demand\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [-1, -1] } ] }\n")
+  run(kkt off.json)
+  expect_rc(1)
+  expect_in(out "not a KKT point: stationarity")
+  expect_in(out "LICQ holds, so x is not a local minimiser")
+  expect_in(out "not_stationary")
+  run(kkt off.json --json)
+  expect_rc(1)
+  expect_json()
+  expect_key(fails verdict)
+  expect_key(not_kkt classification)
+  expect_key(fails residuals stationarity verdict)
+  expect_key(not_checked second_order)
+
+  # The Kuhn-Tucker cusp (Kuhn and Tucker, 1951) at its minimiser (1, 0): no CQ, no multipliers.
+  write(cusp.json "{ \"x\": [1, 0], \"objective\": { \"gradient\": [-1, 0] }, \"constraints\": [
+    { \"name\": \"cusp\", \"type\": \"ineq\", \"kind\": \"nonlinear\", \"value\": 0, \"gradient\": [0, 1] },
+    { \"name\": \"floor\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [0, -1] } ] }\n")
+  run(kkt cusp.json)
+  expect_rc(1)
+  expect_in(out "may still be a minimiser")
+  expect_in(out "no_multipliers")
+  run(kkt cusp.json --json)
+  expect_rc(1)
+  expect_json()
+  expect_key(no_cq_holds classification)
+  expect_key(fails licq)
+  expect_key(fails mfcq)
+  expect_key(fails linear_cq)
+
+  # Given multipliers of the wrong sign: the pair is not a KKT pair (dual residual named).
+  write(wrong_sign.json "{ \"x\": [4, 2], \"objective\": { \"gradient\": [8, 8] },
+  \"constraints\": ${tank_constraints},
+  \"multipliers\": { \"demand\": -8, \"roof_space\": 0, \"shade\": 0 } }\n")
+  run(kkt wrong_sign.json --json)
+  expect_rc(1)
+  expect_key(fails residuals dual verdict)
+  expect_key(0 residuals dual worst)
+
+  # Within the band: grad f = (8, 8.00003) leaves 1.5e-5 against the threshold 8e-6
+  # (hand-checked): undecided at the default tolerance, a KKT point at --tol 1e-4.
+  write(band.json "{ \"x\": [4, 2], \"objective\": { \"gradient\": [8, 8.00003] }, \"constraints\": [
+    { \"name\": \"demand\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [-1, -1] } ] }\n")
+  run(kkt band.json)
+  expect_rc(2)
+  expect_in(out "KKT undecided")
+  run(kkt band.json --tol 1e-4 --json)
+  expect_rc(0)
+  expect_key(kkt_unique_multipliers classification)
+  expect_key(holds residuals stationarity verdict)
+  # The apex of a square pyramid (x3 >= |x1|, x3 >= |x2|) with grad f = (1, -2, 7): LICQ fails,
+  # MFCQ holds, the multipliers form the segment l1 in [0, 2] (hand-derived).
+  write(apex.json "{ \"x\": [0, 0, 0], \"objective\": { \"gradient\": [1, -2, 7] }, \"constraints\": [
+    { \"name\": \"east\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [1, 0, -1] },
+    { \"name\": \"west\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [-1, 0, -1] },
+    { \"name\": \"north\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [0, 1, -1] },
+    { \"name\": \"south\", \"type\": \"ineq\", \"kind\": \"affine\", \"value\": 0, \"gradient\": [0, -1, -1] } ] }\n")
+  run(kkt apex.json --json)
+  expect_rc(0)
+  expect_key(fails licq)
+  expect_key(holds mfcq)
+  expect_key(fails multipliers_unique)
+  expect_key(holds multipliers_bounded)
+  expect_length(4 multiplier_ranges)
+  expect_key(east multiplier_ranges 0 name)
+
+  # Errors: malformed files name the file and the line; usage.
+  write(short_gradient.json "{ \"x\": [1, 2],\n  \"objective\": { \"gradient\": [1] }, \"constraints\": [] }\n")
+  run_args(kkt short_gradient.json)
+  expect_in(err "line 2, column 30: objective.gradient: expected 2 numbers")
+  expect_error(65 short_gradient.json)
+  run(kkt short_gradient.json --json)
+  expect_key(2 line)
+  write(broken.json "{ \"x\": [1,\n ] }\n")
+  run_args(kkt broken.json)
+  expect_in(err "line 2, column 2: expected a value")
+  expect_error(65 broken.json)
+  run(kkt broken.json --json)
+  expect_key(2 line)
+  run_args(kkt missing.json)
+  expect_error(66 missing.json)
+  run(kkt tank.json --tol 2)
+  expect_rc(64)
+  expect_in(err "--tol must be a finite number in (0, 1)")
+  run(kkt)
+  expect_rc(64)
+  expect_in(err "missing POINT.json argument")
+  run(kkt --help)
+  expect_rc(0)
+  expect_in(out "Usage: qualify kkt POINT.json [--tol X] [--json]")
+  run(--help)
+  expect_in(out "  kkt ")
 
 else()
   message(FATAL_ERROR "unknown GROUP '${GROUP}'")

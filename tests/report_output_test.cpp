@@ -181,3 +181,49 @@ TEST_CASE("the doctest helpers pass on the expected verdict") {
   CHECK(shown.find("flow_in_copy") != std::string::npos);
   CHECK(doctest::StringMaker<verdict>::convert(verdict::holds) == doctest::String("holds"));
 }
+
+TEST_CASE("JSON of a derivative check is valid and carries the documented keys") {
+  // f = x0^2 x1 with a gradient whose second entry is wrong (x0 instead of x0^2).
+  callback_model model;
+  model.variables = 2;
+  model.objective = [](const VectorXd& x) { return x(0) * x(0) * x(1); };
+  model.objective_gradient = [](const VectorXd& x) {
+    VectorXd g(2);
+    g << 2 * x(0) * x(1), x(0);
+    return g;
+  };
+  VectorXd x(2);
+  x << 3, 1;
+  const auto rep = check_derivatives(model, x);
+  const std::string json = to_json(rep);
+  json_checker checker(json);
+  REQUIRE(checker.valid());
+  const char* keys[] = {"schema_version",
+                        "check",
+                        "verdict",
+                        "message",
+                        "variables",
+                        "constraints",
+                        "relative_step_requested",
+                        "relative_step",
+                        "relative_tolerance",
+                        "scale_floor",
+                        "value_precision",
+                        "estimate_safety",
+                        "step_reductions",
+                        "entries",
+                        "agreeing",
+                        "disagreeing",
+                        "undecided",
+                        "not_evaluated",
+                        "max_bound_ratio",
+                        "max_proven_ratio",
+                        "evaluations",
+                        "parts",
+                        "worst",
+                        "labels",
+                        "findings"};
+  for (const char* key : keys) CHECK_MESSAGE(checker.top_keys.count(key) == 1, key);
+  CHECK(json.find("\"name\":\"d(objective)/dx[1]\"") != std::string::npos);
+  CHECK(json_checker(to_json(check_derivatives(model, VectorXd(3)))).valid());
+}

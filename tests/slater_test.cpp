@@ -1,4 +1,5 @@
-// qualify: tests of Slater's condition, strict interiors and implicit equalities against GLPK.
+// qualify: tests of Slater's condition (affine systems and convex callback models), strict
+// interiors and implicit equalities, against GLPK and published examples.
 // SPDX-License-Identifier: MIT
 #include <doctest/doctest.h>
 #include <fmt/format.h>
@@ -6,6 +7,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <functional>
 #include <limits>
 #include <qualify/format.hpp>
 #include <qualify/json.hpp>
@@ -13,6 +15,7 @@
 #include <qualify/slater.hpp>
 #include <random>
 #include <set>
+#include <stdexcept>
 #include <string>
 #include <vector>
 
@@ -635,4 +638,630 @@ TEST_CASE("lp_result prints through fmt and JSON") {
   CHECK(json.find("\"status\":\"optimal\"") != std::string::npos);
   CHECK(json.find("\"iterations\":") != std::string::npos);
   CHECK(json.find("\"primal_residual\":") != std::string::npos);
+}
+
+// --- check_slater: callback models, the phase one and its certificates ---------------------
+
+namespace {
+
+using Eigen::MatrixXd;
+using Eigen::VectorXd;
+using qualify::constraint_kind;
+using qualify::constraint_type;
+constexpr auto ineq = constraint_type::inequality;
+constexpr auto eq = constraint_type::equality;
+constexpr auto convex = constraint_kind::convex;
+constexpr auto affine = constraint_kind::affine;
+
+using values_fn = std::function<VectorXd(const VectorXd&)>;
+using jacobian_fn = std::function<MatrixXd(const VectorXd&)>;
+using hessian_fn = std::function<MatrixXd(const VectorXd&, Index)>;
+
+qualify::callback_model callbacks(Index n, std::vector<constraint_type> types,
+                                  std::vector<constraint_kind> kinds, values_fn values,
+                                  jacobian_fn jacobian, hessian_fn hessian = {},
+                                  std::vector<std::string> labels = {}) {
+  qualify::callback_model m;
+  m.variables = n;
+  m.types = std::move(types);
+  m.kinds = std::move(kinds);
+  m.labels = std::move(labels);
+  m.convex_model = true;
+  m.constraint_values = std::move(values);
+  m.constraint_jacobian = std::move(jacobian);
+  m.constraint_hessian = std::move(hessian);
+  return m;
+}
+
+VectorXd vec(std::initializer_list<double> v) {
+  return Eigen::Map<const VectorXd>(v.begin(), Index(v.size()));
+}
+
+qualify::slater_options from(const VectorXd& start,
+                             qualify::hessian_source h = qualify::hessian_source::automatic) {
+  qualify::slater_options o;
+  o.start = start;
+  o.hessians = h;
+  return o;
+}
+
+// Independent check of a Slater point: the model's callbacks evaluated here, convex rows
+// strictly negative, affine rows and equalities met within 1e-6 (1 + |grad c| . |x|) (the
+// documented feasibility_tolerance: LP points meet tight rows only to the LP's tolerances).
+bool slater_point(const qualify::callback_model& m, const VectorXd& x) {
+  if (x.size() != m.variables) return false;
+  const VectorXd v = m.constraint_values(x);
+  const MatrixXd j = m.constraint_jacobian(x);
+  for (Index i = 0; i < m.constraints(); ++i) {
+    const double tol = 1e-6 * (1 + j.row(i).cwiseAbs().dot(x.cwiseAbs()));
+    if (m.types[std::size_t(i)] == eq) {
+      if (std::abs(v[i]) > tol) return false;
+    } else if (m.kinds[std::size_t(i)] == affine ? v[i] > tol : !(v[i] < 0)) {
+      return false;
+    }
+  }
+  return true;
+}
+
+// Hock and Schittkowski, Test Examples for Nonlinear Programming Codes (1981), problem 43
+// (Rosen and Suzuki), from memory: three convex quadratic constraints c_k(x) >= 0, written
+// here as g_k = -c_k <= 0; x* = (0, 1, 2, -1) with c_1 and c_3 active, f* = -44.
+struct hs043 {
+  Index variables() const { return 4; }
+  std::vector<constraint_type> types() const { return {ineq, ineq, ineq}; }
+  std::vector<constraint_kind> kinds() const { return {convex, convex, convex}; }
+  VectorXd constraint_values(const VectorXd& x) const {
+    const double a = x(0), b = x(1), c = x(2), d = x(3);
+    return vec({a * a + b * b + c * c + d * d + a - b + c - d - 8,
+                a * a + 2 * b * b + c * c + 2 * d * d - a - d - 10,
+                2 * a * a + b * b + c * c + 2 * a - b - d - 5});
+  }
+  MatrixXd constraint_jacobian(const VectorXd& x) const {
+    const double a = x(0), b = x(1), c = x(2), d = x(3);
+    MatrixXd j(3, 4);
+    j << 2 * a + 1, 2 * b - 1, 2 * c + 1, 2 * d - 1,  //
+        2 * a - 1, 4 * b, 2 * c, 4 * d - 1,           //
+        4 * a + 2, 2 * b - 1, 2 * c, -1;
+    return j;
+  }
+  MatrixXd constraint_hessian(const VectorXd&, Index i) const {
+    const VectorXd d = i == 0 ? vec({2, 2, 2, 2}) : i == 1 ? vec({2, 4, 2, 4}) : vec({4, 2, 2, 0});
+    return d.asDiagonal();
+  }
+};
+
+// The same problem without Hessians: check_slater approximates them (damped BFGS).
+struct hs043_first_order {
+  hs043 p;
+  Index variables() const { return p.variables(); }
+  std::vector<constraint_type> types() const { return p.types(); }
+  std::vector<constraint_kind> kinds() const { return p.kinds(); }
+  VectorXd constraint_values(const VectorXd& x) const { return p.constraint_values(x); }
+  MatrixXd constraint_jacobian(const VectorXd& x) const { return p.constraint_jacobian(x); }
+};
+
+// Hock and Schittkowski (1981), problem 65, from memory: 48 - x1^2 - x2^2 - x3^2 >= 0 with
+// -4.5 <= x1, x2 <= 4.5 and -5 <= x3 <= 5 (the bounds as affine rows here), started at
+// x0 = (-5, 5, 0), which breaks two bounds; x = 0 is strictly feasible (hand-checkable).
+qualify::callback_model hs065() {
+  return callbacks(
+      3, {ineq, ineq, ineq, ineq, ineq, ineq, ineq},
+      {convex, affine, affine, affine, affine, affine, affine},
+      [](const VectorXd& x) {
+        return vec({x.squaredNorm() - 48, -4.5 - x(0), x(0) - 4.5, -4.5 - x(1), x(1) - 4.5,
+                    -5 - x(2), x(2) - 5});
+      },
+      [](const VectorXd& x) {
+        MatrixXd j = MatrixXd::Zero(7, 3);
+        j.row(0) = 2 * x.transpose();
+        for (Index k = 0; k < 3; ++k) j(1 + 2 * k, k) = -1, j(2 + 2 * k, k) = 1;
+        return j;
+      },
+      [](const VectorXd&, Index i) {
+        return i == 0 ? MatrixXd(2 * MatrixXd::Identity(3, 3)) : MatrixXd(MatrixXd::Zero(3, 3));
+      },
+      {"sphere", "x1_low", "x1_high", "x2_low", "x2_high", "x3_low", "x3_high"});
+}
+
+// An affine_model as a callback model: one inequality per finite side of a row or an unfixed
+// column (a x - u <= 0, l - a x <= 0), one equality per fixed row or column. `origin[k]`
+// gives the row (>= 0) or column (-1 - j) each model row came from.
+qualify::callback_model as_callbacks(const affine_model& p, std::vector<Index>& origin) {
+  std::vector<VectorXd> grads;
+  std::vector<double> offsets;  // c(x) = g . x + offset
+  std::vector<constraint_type> types;
+  origin.clear();
+  const Index n = p.A.cols();
+  auto side = [&](const VectorXd& a, double bound, bool lower, bool equality, Index from) {
+    grads.push_back(lower ? VectorXd(-a) : a);
+    offsets.push_back(lower ? bound : -bound);
+    types.push_back(equality ? eq : ineq);
+    origin.push_back(from);
+  };
+  for (Index i = 0; i < p.A.rows(); ++i) {
+    const VectorXd a = p.A.row(i).transpose();
+    if (p.rl[i] == p.ru[i]) {
+      side(a, p.ru[i], false, true, i);
+      continue;
+    }
+    if (std::isfinite(p.rl[i])) side(a, p.rl[i], true, false, i);
+    if (std::isfinite(p.ru[i])) side(a, p.ru[i], false, false, i);
+  }
+  for (Index j = 0; j < n; ++j) {
+    const VectorXd e = VectorXd::Unit(n, j);
+    if (p.cl[j] == p.cu[j]) {
+      side(e, p.cu[j], false, true, -1 - j);
+      continue;
+    }
+    if (std::isfinite(p.cl[j])) side(e, p.cl[j], true, false, -1 - j);
+    if (std::isfinite(p.cu[j])) side(e, p.cu[j], false, false, -1 - j);
+  }
+  const auto m = Index(grads.size());
+  MatrixXd G(m, n);
+  VectorXd offset(m);
+  for (Index k = 0; k < m; ++k)
+    G.row(k) = grads[std::size_t(k)].transpose(), offset[k] = offsets[std::size_t(k)];
+  return callbacks(
+      n, types, std::vector<constraint_kind>(std::size_t(m), affine),
+      [G, offset](const VectorXd& x) { return VectorXd(G * x + offset); },
+      [G](const VectorXd&) { return G; });
+}
+
+}  // namespace
+
+TEST_CASE("check_slater: x^2 <= 0 and x^2/y <= 0 have no Slater point; the certificate says why") {
+  for (auto h : {qualify::hessian_source::automatic, qualify::hessian_source::quasi_newton}) {
+    CAPTURE(qualify::to_string(h));
+    // Hand-checkable (and DESIGN.md's counter-example): 0 is the only point with x^2 <= 0, so
+    // no point has x^2 < 0. The certificate: lambda = 1, and x^2 >= 0 everywhere.
+    const auto square = callbacks(
+        1, {ineq}, {convex}, [](const VectorXd& x) { return vec({x(0) * x(0)}); },
+        [](const VectorXd& x) { return MatrixXd::Constant(1, 1, 2 * x(0)); },
+        [](const VectorXd&, Index) { return MatrixXd::Constant(1, 1, 2.0); }, {"square"});
+    for (double start : {0.0, 1.0, -3.0}) {
+      CAPTURE(start);
+      const auto r = qualify::check_slater(square, from(vec({start}), h));
+      CAPTURE(fmt::format("{:f}", r));
+      CHECK(r.result == qualify::verdict::fails);
+      CHECK(r.verdict_name() == "fails");
+      CHECK(r.strict_interior == qualify::verdict::fails);
+      CHECK(r.feasible == qualify::feasibility::feasible);  // the best point is about 0
+      CHECK(r.pinching == std::vector<Index>{0});
+      CHECK(r.multipliers[0] == doctest::Approx(1));
+      CHECK(r.lower_bound >= -r.margin_tolerance);
+      CHECK(r.upper_bound >= r.lower_bound);
+      // Independent check of the evidence: phi = x^2 evaluated at the certificate point.
+      const double xb = r.certificate_point[0];
+      CHECK(r.certificate_value == doctest::Approx(xb * xb / r.weights[0]).epsilon(1e-12));
+      CHECK(r.findings.at(0).code == "no_slater_point");
+      CHECK(r.findings.at(0).labels == std::vector<std::string>{"square"});
+    }
+    // Boyd and Vandenberghe, Convex Optimization (2004), exercise 5.21 (from memory): the
+    // constraint x^2/y <= 0 on the domain y > 0 holds only on x = 0, so Slater's condition
+    // fails. The callbacks throw outside the domain, as such a function's code would. The
+    // function is linear along every ray from the origin and not closed there, so the
+    // barrier's iterates run into the edge of the domain (the barrier method's theory
+    // assumes closed functions: Boyd and Vandenberghe, sec. 11.3): the check must not claim a
+    // Slater point, and any failure it reports must carry a valid bound.
+    const auto quad_over_lin = callbacks(
+        2, {ineq}, {convex},
+        [](const VectorXd& x) {
+          if (!(x(1) > 0)) throw std::domain_error("y must be positive");
+          return vec({x(0) * x(0) / x(1)});
+        },
+        [](const VectorXd& x) {
+          if (!(x(1) > 0)) throw std::domain_error("y must be positive");
+          MatrixXd j(1, 2);
+          j << 2 * x(0) / x(1), -x(0) * x(0) / (x(1) * x(1));
+          return j;
+        },
+        [](const VectorXd& x, Index) {
+          const double a = x(0), y = x(1);
+          MatrixXd hm(2, 2);
+          hm << 2 / y, -2 * a / (y * y), -2 * a / (y * y), 2 * a * a / (y * y * y);
+          return hm;
+        });
+    const auto r = qualify::check_slater(quad_over_lin, from(vec({1, 1}), h));
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result != qualify::verdict::holds);
+    CHECK(r.result != qualify::verdict::invalid_input);
+    if (r.result == qualify::verdict::fails) CHECK(r.lower_bound >= -r.margin_tolerance);
+    // With exact Hessians the Newton steps head for the origin and meet the exceptions; the
+    // line search backs off (measured: the run ends undecided). The damped BFGS model does
+    // not see the flat ray and finds the certificate.
+    if (h == qualify::hessian_source::automatic) CHECK(r.domain_exits > 0);
+    // Started on the set x = 0 itself, the certificate is read there: lambda = 1, phi = 0.
+    const auto on = qualify::check_slater(quad_over_lin, from(vec({0, 1}), h));
+    CAPTURE(fmt::format("{:f}", on));
+    CHECK(on.result == qualify::verdict::fails);
+    CHECK(on.certificate_point[1] > 0);
+  }
+}
+
+TEST_CASE("check_slater: two discs that touch pinch the feasible set to a point") {
+  // Hand-checkable: (x1 - 1)^2 + x2^2 <= 1 and (x1 + 1)^2 + x2^2 <= 1 meet only at 0; the sum
+  // of the two constraints is 2 |x|^2 >= 0, so equal multipliers on the constraints as given
+  // prove it (on rows divided by w_i: lambda_i proportional to w_i).
+  for (auto h : {qualify::hessian_source::automatic, qualify::hessian_source::quasi_newton}) {
+    CAPTURE(qualify::to_string(h));
+    const auto discs = callbacks(
+        2, {ineq, ineq}, {convex, convex},
+        [](const VectorXd& x) {
+          return vec({(x(0) - 1) * (x(0) - 1) + x(1) * x(1) - 1,
+                      (x(0) + 1) * (x(0) + 1) + x(1) * x(1) - 1});
+        },
+        [](const VectorXd& x) {
+          MatrixXd j(2, 2);
+          j << 2 * (x(0) - 1), 2 * x(1), 2 * (x(0) + 1), 2 * x(1);
+          return j;
+        },
+        [](const VectorXd&, Index) { return MatrixXd(2 * MatrixXd::Identity(2, 2)); },
+        {"east", "west"});
+    const auto r = qualify::check_slater(discs, from(vec({0.5, 0.5}), h));
+    CAPTURE(fmt::format("{:f}", r));
+    REQUIRE(r.result == qualify::verdict::fails);
+    REQUIRE(r.pinching.size() == 2);
+    const double east = r.multipliers[0] / r.weights[0], west = r.multipliers[1] / r.weights[1];
+    CHECK(east == doctest::Approx(west).epsilon(1e-4));
+    CHECK(r.multipliers[0] + r.multipliers[1] == doctest::Approx(1));
+    CHECK(r.pinching.front() == (r.multipliers[0] > r.multipliers[1] ? 0 : 1));  // by size
+    CHECK(r.proof_radius > 1e3);
+  }
+}
+
+TEST_CASE("check_slater: convex test problems with a strictly feasible point") {
+  SUBCASE("Hock and Schittkowski 43 from a strictly feasible start and from its optimum") {
+    const hs043 problem;
+    const auto model = qualify::make_callback_model(problem, {"c1", "c2", "c3"}, true);
+    // x0 = 0 gives c = (8, 10, 5) > 0: strictly feasible as it stands (hand-checkable).
+    auto r = qualify::check_slater(model, from(VectorXd::Zero(4)));
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == qualify::verdict::holds);
+    CHECK(r.method == "phase_one_exact");
+    CHECK(r.newton_steps == 0);
+    CHECK(slater_point(model, r.point));
+    // From x* = (0, 1, 2, -1), where c1 and c3 are active, the phase one has to move.
+    r = qualify::check_slater(model, from(vec({0, 1, 2, -1})));
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == qualify::verdict::holds);
+    CHECK(r.strict_interior == qualify::verdict::holds);
+    CHECK(r.newton_steps > 0);
+    CHECK(slater_point(model, r.point));
+    CHECK(r.point_margin <= -1e-6);
+    CHECK((model.constraint_values(r.point).array() / r.weights.array()).maxCoeff() ==
+          doctest::Approx(r.point_margin));
+    // Without Hessians: the quasi-Newton path finds a point as well.
+    const hs043_first_order first_order;
+    const auto m1 = qualify::make_callback_model(first_order, {}, true);
+    r = qualify::check_slater(m1, from(vec({0, 1, 2, -1})));
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.method == "phase_one_quasi_newton");
+    CHECK(r.result == qualify::verdict::holds);
+    CHECK(slater_point(m1, r.point));
+  }
+  SUBCASE("Hock and Schittkowski 65 from its start outside the bounds") {
+    const auto model = hs065();
+    for (auto h : {qualify::hessian_source::automatic, qualify::hessian_source::quasi_newton}) {
+      const auto r = qualify::check_slater(model, from(vec({-5, 5, 0}), h));
+      CAPTURE(fmt::format("{:f}", r));
+      CHECK(r.result == qualify::verdict::holds);
+      CHECK(r.strict_interior == qualify::verdict::holds);
+      CHECK(slater_point(model, r.point));
+      CHECK(slater_point(model, r.interior_point));
+      CHECK(r.implicit_equalities.empty());
+      REQUIRE(r.affine);
+      CHECK(r.affine->result == qualify::verdict::holds);  // the box has an interior
+    }
+  }
+  SUBCASE("a domain the callbacks enforce by throwing: -log(x) <= 0 from x = 0.5") {
+    // Hand-checkable: -log(x) <= 0 iff x >= 1, and x = e gives -1 < 0. The callbacks throw
+    // for x <= 0; the line search backs off from such points.
+    const auto model = callbacks(
+        1, {ineq}, {convex},
+        [](const VectorXd& x) {
+          if (!(x(0) > 0)) throw std::domain_error("log of a non-positive number");
+          return vec({-std::log(x(0))});
+        },
+        [](const VectorXd& x) { return MatrixXd::Constant(1, 1, -1 / x(0)); },
+        [](const VectorXd& x, Index) { return MatrixXd::Constant(1, 1, 1 / (x(0) * x(0))); });
+    const auto r = qualify::check_slater(model, from(vec({0.5})));
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == qualify::verdict::holds);
+    CHECK(r.point[0] > 1);
+  }
+}
+
+TEST_CASE("check_slater: two opposed affine inequalities are implicit equalities (GLPK agrees)") {
+  // Hand-checkable: x1 + x2 <= 1 and x1 + x2 >= 1 leave the line x1 + x2 = 1; the disc
+  // x1^2 + x2^2 <= 4 cuts a segment of it with interior points (0.5, 0.5), so the refined
+  // Slater condition holds and the strict interior fails on the two affine rows.
+  for (auto h : {qualify::hessian_source::automatic, qualify::hessian_source::quasi_newton}) {
+    const auto model = callbacks(
+        2, {ineq, ineq, ineq}, {convex, affine, affine},
+        [](const VectorXd& x) {
+          return vec({x.squaredNorm() - 4, x(0) + x(1) - 1, 1 - x(0) - x(1)});
+        },
+        [](const VectorXd& x) {
+          MatrixXd j(3, 2);
+          j << 2 * x(0), 2 * x(1), 1, 1, -1, -1;
+          return j;
+        },
+        [](const VectorXd&, Index i) {
+          return i == 0 ? MatrixXd(2 * MatrixXd::Identity(2, 2)) : MatrixXd(MatrixXd::Zero(2, 2));
+        },
+        {"disc", "cap", "floor"});
+    const auto r = qualify::check_slater(model, from(vec({3, 3}), h));
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == qualify::verdict::holds);
+    CHECK(r.strict_interior == qualify::verdict::fails);
+    CHECK(r.implicit_equalities == std::vector<Index>{1, 2});
+    CHECK(slater_point(model, r.point));
+    // GLPK on the affine part (rows cap and floor, free columns), one LP per side.
+    affine_model p;
+    p.A = MatrixXd::Ones(2, 2);
+    p.A.row(1) *= -1;
+    p.rl = Eigen::Vector2d::Constant(-inf);
+    p.ru = Eigen::Vector2d(1, -1);
+    p.cl = Eigen::Vector2d::Constant(-inf);
+    p.cu = Eigen::Vector2d::Constant(inf);
+    const auto ref = glpk_implicit(p);
+    REQUIRE(ref.feasible);
+    CHECK(ref.implicit_rows == std::set<Index>{0, 1});
+  }
+}
+
+TEST_CASE("check_slater: infeasible models are infeasible, with a certificate") {
+  SUBCASE("the affine part alone is infeasible: the LP's Farkas certificate") {
+    // Hand-checkable: x1 <= 0 and x1 >= 1 (affine) with the disc |x|^2 <= 1.
+    const auto model = callbacks(
+        2, {ineq, ineq, ineq}, {convex, affine, affine},
+        [](const VectorXd& x) {
+          return vec({x.squaredNorm() - 1, x(0), 1 - x(0)});
+        },
+        [](const VectorXd& x) {
+          MatrixXd j(3, 2);
+          j << 2 * x(0), 2 * x(1), 1, 0, -1, 0;
+          return j;
+        },
+        {}, {"disc", "left", "right"});
+    const auto r = qualify::check_slater(model);
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.verdict_name() == "infeasible");
+    CHECK(r.result == qualify::verdict::fails);
+    REQUIRE(r.affine);
+    CHECK(as_set(r.affine->certificate_rows) == std::set<Index>{1, 2});
+    // The certificate checked independently on the affine rows as an affine_model.
+    affine_model p;
+    p.A = MatrixXd::Zero(3, 2);
+    p.A(1, 0) = 1, p.A(2, 0) = -1;
+    p.rl = Eigen::Vector3d::Constant(-inf);
+    p.ru = Eigen::Vector3d(inf, 0, -1);
+    p.cl = Eigen::Vector2d::Constant(-inf);
+    p.cu = Eigen::Vector2d::Constant(inf);
+    CHECK(farkas_proves_infeasible(p, r.affine->farkas));
+    CHECK_FALSE(glpk_implicit(p).feasible);  // GLPK agrees
+  }
+  SUBCASE("the convex rows cannot be met on the affine part: the phase one's certificate") {
+    // Hand-checkable: on x1 >= 2 the disc constraint |x|^2 - 1 is >= 3.
+    const auto model = callbacks(
+        2, {ineq, ineq}, {convex, affine},
+        [](const VectorXd& x) {
+          return vec({x.squaredNorm() - 1, 2 - x(0)});
+        },
+        [](const VectorXd& x) {
+          MatrixXd j(2, 2);
+          j << 2 * x(0), 2 * x(1), -1, 0;
+          return j;
+        },
+        [](const VectorXd&, Index i) {
+          return i == 0 ? MatrixXd(2 * MatrixXd::Identity(2, 2)) : MatrixXd(MatrixXd::Zero(2, 2));
+        },
+        {"disc", "beyond"});
+    const auto r = qualify::check_slater(model);
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.verdict_name() == "infeasible");
+    CHECK(r.feasible == qualify::feasibility::infeasible);
+    CHECK(r.pinching == std::vector<Index>{0});
+    CHECK(r.certificate_affine_rows == std::vector<Index>{1});
+    CHECK(r.multipliers[1] > 0);
+    // The true s* is 3 / w_0 (at x = (2, 0)); the verified lower bound may not exceed it.
+    CHECK(r.lower_bound > r.feasibility_tolerance);
+    CHECK(r.lower_bound <= 3 / r.weights[0] + 1e-9);
+  }
+}
+
+TEST_CASE("check_slater on affine callback models agrees with GLPK (seeded random systems)") {
+  std::mt19937 rng(20240611);
+  int compared = 0;
+  for (int trial = 0; trial < 24; ++trial) {
+    const bool infeasible = trial % 4 == 3;
+    const affine_model p = random_model(rng, 3 + trial % 5, 4 + trial % 3, infeasible);
+    std::vector<Index> origin;
+    const auto model = as_callbacks(p, origin);
+    const auto r = qualify::check_slater(model);
+    CAPTURE(trial);
+    CAPTURE(fmt::format("{:f}", r));
+    const auto ref = glpk_implicit(p);
+    if (ref.ambiguous) continue;  // GLPK cannot say either: no comparison
+    ++compared;
+    CHECK(r.method == "affine_lp");
+    if (!ref.feasible) {
+      CHECK(r.verdict_name() == "infeasible");
+      continue;
+    }
+    REQUIRE(r.result == qualify::verdict::holds);
+    CHECK(slater_point(model, r.point));
+    std::set<Index> rows, cols;  // the model's implicit rows, mapped back to A's rows / columns
+    for (Index k : r.implicit_equalities) {
+      if (origin[std::size_t(k)] >= 0)
+        rows.insert(origin[std::size_t(k)]);
+      else
+        cols.insert(-1 - origin[std::size_t(k)]);
+    }
+    CHECK(rows == ref.implicit_rows);
+    CHECK(cols == ref.implicit_cols);
+    CHECK(r.strict_interior ==
+          (rows.empty() && cols.empty() ? qualify::verdict::holds : qualify::verdict::fails));
+  }
+  CHECK(compared >= 20);
+}
+
+TEST_CASE("check_slater: bad input, refusals and edge cases") {
+  const auto disc = callbacks(
+      2, {ineq}, {convex}, [](const VectorXd& x) { return vec({x.squaredNorm() - 1}); },
+      [](const VectorXd& x) { return MatrixXd(2 * x.transpose()); });
+  REQUIRE(qualify::check_slater(disc).result == qualify::verdict::holds);
+  auto expect = [](const qualify::slater_report& r, qualify::verdict v, const char* code,
+                   const char* words) {
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == v);
+    REQUIRE_FALSE(r.findings.empty());
+    CHECK(r.findings[0].code == code);
+    CHECK(r.message.find(words) != std::string::npos);
+  };
+  SUBCASE("NaN from a callback at the start") {
+    auto m = disc;
+    m.constraint_values = [](const VectorXd&) { return vec({std::nan("")}); };
+    expect(qualify::check_slater(m), qualify::verdict::invalid_input, "non_finite_entry",
+           "constraint_values returned nan at row 0");
+    m = disc;
+    m.constraint_jacobian = [](const VectorXd&) { return MatrixXd::Constant(1, 2, inf); };
+    expect(qualify::check_slater(m), qualify::verdict::invalid_input, "non_finite_entry",
+           "constraint_jacobian returned inf");
+  }
+  SUBCASE("a callback that throws, at the start or in its Hessian") {
+    auto m = disc;
+    m.constraint_values = [](const VectorXd&) -> VectorXd { throw std::runtime_error("boom"); };
+    expect(qualify::check_slater(m), qualify::verdict::invalid_input, "callback_failed",
+           "constraint_values threw: boom");
+    m = disc;
+    m.constraint_hessian = [](const VectorXd&, Index) -> MatrixXd { throw 42; };
+    expect(qualify::check_slater(m, from(vec({3, 0}))), qualify::verdict::invalid_input,
+           "callback_failed", "constraint_hessian threw an exception that is not a std::exception");
+  }
+  SUBCASE("dimensions that disagree") {
+    auto m = disc;
+    m.constraint_jacobian = [](const VectorXd&) { return MatrixXd::Zero(1, 3); };
+    expect(qualify::check_slater(m), qualify::verdict::invalid_input, "callback_size",
+           "constraint_jacobian returned 1 x 3, expected 1 x 2");
+    // A wrong size later in the run, at a trial point, is refused as well.
+    m = disc;
+    m.constraint_values = [](const VectorXd& x) {
+      return x.norm() < 2 ? VectorXd::Zero(2) : vec({x.squaredNorm() - 1});
+    };
+    expect(qualify::check_slater(m, from(vec({3, 0}))), qualify::verdict::invalid_input,
+           "callback_size", "constraint_values returned 2 x 1, expected 1 x 1");
+    expect(qualify::check_slater(disc, from(vec({1, 2, 3}))), qualify::verdict::invalid_input,
+           "dimension_mismatch", "start has 3 entries for 2 variables");
+    m = disc;
+    m.kinds = {convex, convex};
+    expect(qualify::check_slater(m), qualify::verdict::invalid_input, "invalid_model",
+           "kinds has 2 entries for 1 constraints");
+  }
+  SUBCASE("options") {
+    qualify::slater_options o;
+    o.margin_tolerance = 0;
+    expect(qualify::check_slater(disc, o), qualify::verdict::invalid_input, "bad_option",
+           "margin_tolerance");
+    o = {};
+    o.final_gap = 1;
+    expect(qualify::check_slater(disc, o), qualify::verdict::invalid_input, "bad_option",
+           "final_gap");
+    o = {};
+    o.affine.slack_tolerance = 2;
+    expect(qualify::check_slater(disc, o), qualify::verdict::invalid_input, "bad_option",
+           "affine: affine_slater_options.slack_tolerance");
+    o = {};
+    o.hessians = qualify::hessian_source::exact;
+    expect(qualify::check_slater(disc, o), qualify::verdict::invalid_input, "missing_callback",
+           "no constraint_hessian");
+  }
+  SUBCASE("a model not declared convex is refused, the rows in the way named") {
+    auto m = callbacks(
+        2, {ineq, eq, eq, ineq},
+        {convex, constraint_kind::nonlinear, convex, constraint_kind::unknown},
+        [](const VectorXd& x) {
+          return vec({x(0), x(1), x(0), x(1)});
+        },
+        [](const VectorXd&) { return MatrixXd::Zero(4, 2); }, {}, {"a", "b", "c", "d"});
+    const auto r = qualify::check_slater(m);
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == qualify::verdict::invalid_input);
+    CHECK(r.verdict_name() == "not_convex");
+    CHECK(r.not_convex_rows == std::vector<Index>{1, 2, 3});
+    REQUIRE(r.findings.size() == 3);
+    CHECK(r.findings[0].code == "not_convex");
+    CHECK(r.findings[0].labels == std::vector<std::string>{"b"});
+    CHECK(r.message.find("c (equality declared convex)") != std::string::npos);
+    CHECK(r.message.find("d (inequality declared unknown)") != std::string::npos);
+  }
+  SUBCASE("a model with no constraints holds vacuously") {
+    qualify::callback_model m;
+    m.variables = 3;
+    const auto r = qualify::check_slater(m);
+    CHECK(r.result == qualify::verdict::holds);
+    CHECK(r.method == "vacuous");
+    CHECK(r.point.size() == 3);
+  }
+  SUBCASE("an unbounded phase-one direction: -x1 <= 0 decreases without end") {
+    // Hand-checkable: x2^2 <= 0 pins x2 = 0, so Slater fails whatever -x1 does; the phase one
+    // runs x1 out towards the search ball and says so.
+    const auto m = callbacks(
+        2, {ineq, ineq}, {convex, convex},
+        [](const VectorXd& x) {
+          return vec({-x(0), x(1) * x(1)});
+        },
+        [](const VectorXd& x) {
+          MatrixXd j(2, 2);
+          j << -1, 0, 0, 2 * x(1);
+          return j;
+        },
+        [](const VectorXd&, Index i) {
+          MatrixXd hm = MatrixXd::Zero(2, 2);
+          if (i == 1) hm(1, 1) = 2;
+          return hm;
+        },
+        {"ray", "square"});
+    const auto r = qualify::check_slater(m, from(vec({1, 1})));
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == qualify::verdict::fails);
+    CHECK(r.pinching.front() == 1);
+    bool flagged = false;
+    for (const auto& f : r.findings) flagged |= f.code == "phase_one_unbounded";
+    CHECK(flagged);
+    // Hand-checkable: exp(-x) <= 0 has no solution, but exp(-x) tends to 0, so no point has
+    // exp(-x) < 0 (Slater fails) while points far out meet the row within any tolerance (the
+    // model is "weakly infeasible"). The phase one runs x out, and the certificate lambda = 1
+    // is read where exp(-x) and its slope are tiny.
+    const auto e = callbacks(
+        1, {ineq}, {convex}, [](const VectorXd& x) { return vec({std::exp(-x(0))}); },
+        [](const VectorXd& x) { return MatrixXd::Constant(1, 1, -std::exp(-x(0))); },
+        [](const VectorXd& x, Index) { return MatrixXd::Constant(1, 1, std::exp(-x(0))); });
+    for (auto h : {qualify::hessian_source::automatic, qualify::hessian_source::quasi_newton}) {
+      const auto u = qualify::check_slater(e, from(vec({0}), h));
+      CAPTURE(fmt::format("{:f}", u));
+      CHECK(u.result == qualify::verdict::fails);
+      CHECK(u.upper_bound > 0);  // no point reaches exp(-x) <= 0
+      CHECK(u.lower_bound >= -u.margin_tolerance);
+      CHECK(u.certificate_point[0] > 10);
+    }
+  }
+  CHECK(qualify::slater_report{}.message == "check_slater was not called");
+  CHECK(qualify::to_string(qualify::hessian_source::quasi_newton) == "quasi_newton");
+}
+
+TEST_CASE("check_slater reports print through fmt and JSON") {
+  const hs043 problem;
+  const auto model = qualify::make_callback_model(problem, {"c1", "c2", "c3"}, true);
+  const auto r = qualify::check_slater(model, from(vec({0, 1, 2, -1})));
+  REQUIRE(r.result == qualify::verdict::holds);
+  CHECK(fmt::format("{}", r).rfind("Slater's condition holds: a point", 0) == 0);
+  const std::string full = fmt::format("{:f}", r);
+  CHECK(full.find("  s* bounds    ") != std::string::npos);
+  CHECK(full.find("  phase one    ") != std::string::npos);
+  const std::string json = qualify::to_json(r);
+  for (const char* key :
+       {"\"check\":\"slater_model\"", "\"verdict\":\"holds\"", "\"strict_interior\":\"holds\"",
+        "\"point\":[", "\"upper_bound\":", "\"pinching\":[]", "\"labels\":[\"c1\",\"c2\",\"c3\"]"})
+    CHECK_MESSAGE(json.find(key) != std::string::npos, key);
 }

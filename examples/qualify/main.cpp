@@ -12,6 +12,7 @@
 #include <new>
 #include <qualify/format.hpp>
 #include <qualify/json.hpp>
+#include <qualify/kkt.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/mfcq.hpp>
 #include <qualify/lp.hpp>
@@ -24,6 +25,7 @@
 
 #include "cli.hpp"
 #include "inputs.hpp"
+#include "point_file.hpp"
 
 namespace exit_code = qualify_cli::exit_code;
 
@@ -287,6 +289,54 @@ int run_slater(const invocation& in) {
   return print_report(in, report);
 }
 
+// ---- kkt ------------------------------------------------------------------------------------
+
+const qualify_cli::command_spec kkt_spec{
+    "kkt",
+    "is the point in POINT.json a KKT point, and what kind of point is it?",
+    {"POINT.json"},
+    {{"--tol", "X",
+      "relative tolerance of the stationarity, dual and complementarity\n"
+      "residuals and of the activity (and primal) test, a number in (0, 1)\n"
+      "(default 1e-6; the rule of each is in the README)"}},
+    "Checks the KKT conditions at the point described by POINT.json: a model evaluated at one\n"
+    "point (x; the objective's gradient and optional Hessian; each constraint's name, type,\n"
+    "declared kind, value, gradient and optional Hessian; optional multipliers and the claim\n"
+    "convex_model), in the schema of the README, section 'Point files'; '-' reads standard\n"
+    "input. Active rows are picked by the activity tolerance; the multipliers are those\n"
+    "given, or estimated by bounded least squares (>= 0 on active inequalities, 0 on\n"
+    "inactive ones, free on equalities). The report gives the stationarity, primal, dual and\n"
+    "complementarity residuals (raw and scaled), LICQ, MFCQ and the linear CQ at x, whether\n"
+    "the multipliers are unique and bounded (their ranges when not unique), the weakly active\n"
+    "rows, the second-order tests (with the Hessians given) and a classification.\n",
+    "Output: the full report on stdout. With --json, one JSON object with the keys\n"
+    "schema_version, check, verdict, classification (not_kkt, undecided, kkt,\n"
+    "kkt_unique_multipliers, strict_local_min, global_min, no_cq_holds), multipliers\n"
+    "({name: value}), residuals, active, weakly_active, licq, mfcq, second_order and more.\n"
+    "Exit status here: 0 a KKT point (certified within tolerance), 1 not one (not_kkt,\n"
+    "no_cq_holds), 2 undecided.\n"};
+
+int run_kkt(const invocation& in) {
+  const std::string& path = in.operands()[0];
+  qualify::kkt_options options;
+  if (const auto tol = in.value("--tol")) {
+    const auto x = qualify_cli::parse_open_unit(*tol);
+    if (!x)
+      return in.usage_error(
+          fmt::format("--tol must be a finite number in (0, 1), got {}", invocation::quote(*tol)));
+    options.stationarity_tolerance = options.dual_tolerance = options.complementarity_tolerance =
+        options.activity.activity_tolerance = *x;
+  }
+  auto point = qualify_cli::read_point_file(path);
+  if (!point) return in.fail(point.error());
+  const qualify::kkt_report report =
+      point->multipliers ? qualify::check_kkt(point->model, *point->multipliers, options)
+                         : qualify::check_kkt(point->model, options);
+  if (report.result == qualify::verdict::invalid_input)
+    return in.fail({exit_code::data, shown_name(path) + ": " + report.message, path, std::nullopt});
+  return print_report(in, report);
+}
+
 // ---- dispatch -------------------------------------------------------------------------------
 
 const qualify_cli::command commands[] = {
@@ -294,6 +344,7 @@ const qualify_cli::command commands[] = {
     {&mfcq_spec, run_mfcq},
     {&lp_spec, run_lp},
     {&slater_spec, run_slater},
+    {&kkt_spec, run_kkt},
 };
 
 std::string top_usage() {

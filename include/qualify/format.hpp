@@ -2,6 +2,8 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
+#include <qualify/derivative_check.hpp>
+#include <qualify/kkt.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
@@ -173,6 +175,162 @@ inline std::string render(const affine_slater_report& r, bool full) {
   return out + render_findings(r.findings);
 }
 
+inline std::string render(const derivative_check_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  out += fmt::format("  model        {} variable{}, {} constraint{}\n", r.variables,
+                     r.variables == 1 ? "" : "s", r.constraints, r.constraints == 1 ? "" : "s");
+  if (r.result != verdict::invalid_input && r.result != verdict::not_checked) {
+    out += fmt::format(
+        "  steps        central differences at h_j = {:.3g} ({}) x max(|x_j|, "
+        "typical_j) and h_j/2, extrapolated; up to {} reductions by 16\n",
+        r.relative_step, r.relative_step_requested ? "given" : "automatic", r.step_reductions);
+    out += fmt::format(
+        "  tolerance    {:.3g} relative, floor {:.3g} of the row's scale, value "
+        "precision {:.3g}, estimate safety {:.3g}\n",
+        r.relative_tolerance, r.scale_floor, r.value_precision, r.estimate_safety);
+    out += fmt::format(
+        "  decided by   max (error + estimate)/tolerance {:.3g}, max (error - "
+        "estimate)/tolerance {:.3g}\n",
+        r.max_bound_ratio, r.max_proven_ratio);
+    for (const auto& p : r.parts)
+      out += fmt::format(
+          "  {:<20} {} entries: {} agree, {} disagree, {} undecided, {} not "
+          "evaluated; {} variables at a reduced step\n",
+          to_string(p.part), p.entries, p.agreeing, p.disagreeing, p.undecided, p.not_evaluated,
+          p.reduced_variables);
+    out += fmt::format("  evaluations  {} at displaced points\n", r.evaluations);
+    if (!r.worst.empty())
+      out +=
+          "  worst        verdict   entry                      analytic         finite "
+          "difference  error     estimate  tolerance step\n";
+    for (const auto& w : r.worst)
+      out += fmt::format(
+          "               {:<9} {:<26} {:<16.9g} {:<18.9g} {:<9.3g} {:<9.3g} {:<9.3g} "
+          "{:.3g}\n",
+          to_string(w.result), w.name(), w.analytic, w.finite_difference, w.error, w.error_estimate,
+          w.tolerance, w.step);
+  }
+  return out + render_findings(r.findings);
+}
+
+inline std::string render(const slater_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  out += fmt::format(
+      "  model        {} variables, {} constraints: {} convex, {} affine "
+      "inequalities, {} equalities\n",
+      r.variables, r.constraints, r.convex_rows.size(), r.affine_rows.size(),
+      r.equality_rows.size());
+  if (!r.not_convex_rows.empty())
+    out += "  not convex   " + join_rows(r.not_convex_rows, r.names) + "\n";
+  if (r.result != verdict::invalid_input && r.result != verdict::not_checked) {
+    out += fmt::format("  verdict      {}; feasibility {}; strict interior {}; method {}\n",
+                       r.verdict_name(), to_string(r.feasible), to_string(r.strict_interior),
+                       r.method);
+    const bool phase_one = r.method.rfind("phase_one", 0) == 0;
+    out += fmt::format(
+        "  tolerances   margin {:.3g}, band {:.3g} (strict <= {:.3g}), feasibility "
+        "{:.3g} (relative)\n",
+        r.margin_tolerance, r.undecided_band, -r.margin_tolerance * r.undecided_band,
+        r.feasibility_tolerance);
+    if (phase_one)
+      out += fmt::format(
+          "  s* bounds    [{:.3g}, {:.3g}] (max g_i/w_i over the convex rows), search radius "
+          "{:.3g}\n",
+          r.lower_bound, r.upper_bound, r.search_radius);
+    if (r.point.size())
+      out += fmt::format("  point        largest g_i/w_i {:.3g}, largest violation {:.3g}\n",
+                         r.point_margin, r.point_violation);
+    if (r.interior_point.size())
+      out += fmt::format("  interior     smallest relative slack {:.3g}\n", r.interior_slack);
+    if (r.certificate_point.size()) {
+      out += fmt::format("  certificate  phi {:.3g}, |grad phi| {:.3g}, proof radius {:.3g}\n",
+                         r.certificate_value, r.certificate_gradient, r.proof_radius);
+      std::string pinch;
+      for (Index i : r.pinching)
+        pinch +=
+            fmt::format("{}{} ({:.3g})", pinch.empty() ? "" : ", ", r.names(i), r.multipliers[i]);
+      out += "  pinching     " + (pinch.empty() ? std::string("none") : pinch) + "\n";
+      out += "  affine used  " + join_rows(r.certificate_affine_rows, r.names) + "\n";
+    }
+    out += "  implicit eq  " + join_rows(r.implicit_equalities, r.names) + "\n";
+    if (phase_one)
+      out += fmt::format(
+          "  phase one    {} Newton steps, {} centrings, t = {:.3g}, {} callback "
+          "calls, {} steps outside the domain\n",
+          r.newton_steps, r.barrier_rounds, r.barrier_parameter, r.callback_evaluations,
+          r.domain_exits);
+    if (r.affine) out += "  affine part  " + r.affine->message + "\n";
+  }
+  return out + render_findings(r.findings);
+}
+
+inline std::string render(const kkt_report& r, bool full) {
+  if (!full) return r.message + brief_suffix(r.findings);
+  std::string out = r.message + "\n";
+  if (r.result == verdict::invalid_input || r.result == verdict::not_checked)
+    return out + render_findings(r.findings);
+  const auto& names = r.names;
+  out += fmt::format("  model        {} variables, {} constraints; multipliers {}", r.variables,
+                     r.constraints, to_string(r.source));
+  if (r.source == multiplier_source::estimated)
+    out += fmt::format(" (bounded least squares, {} solves)", r.estimate_iterations);
+  out += fmt::format("\n  activity     tolerance {:.3g}\n", r.active.activity_tolerance);
+  out += "  active       " + join_rows(r.active.active, names) + "\n";
+  out += "  near-active  " + join_rows(r.active.near_active, names) + "\n";
+  out += "  violated     " + join_rows(r.active.violated, names) + "\n";
+  out += fmt::format("  residuals    {:<16} {:>10} {:>10} {:>10}  verdict\n", "", "raw", "scaled",
+                     "threshold");
+  const std::pair<const char*, const kkt_residual*> rows[] = {
+      {"stationarity", &r.stationarity},
+      {"primal", &r.primal},
+      {"dual", &r.dual},
+      {"complementarity", &r.complementarity}};
+  for (const auto& [label, res] : rows)
+    out += fmt::format("               {:<16} {:>10.3g} {:>10.3g} {:>10.3g}  {}\n", label, res->raw,
+                       res->scaled, res->threshold, to_string(res->result));
+  out += fmt::format("  scaling      s_d = {:.3g} (divides stationarity and complementarity)\n",
+                     r.multiplier_scale);
+  std::string multipliers;
+  Index shown = 0, nonzero = 0;
+  for (Index i = 0; i < r.multipliers.size(); ++i) {
+    if (r.multipliers(i) == 0) continue;
+    ++nonzero;
+    if (++shown <= 12)
+      multipliers +=
+          fmt::format("{}{} {:.6g}", multipliers.empty() ? "" : ", ", names(i), r.multipliers(i));
+  }
+  if (nonzero > 12) multipliers += fmt::format(" and {} more", nonzero - 12);
+  out += "  multipliers  " + (multipliers.empty() ? std::string("all zero") : multipliers) + "\n";
+  out += "  licq         " + r.licq.message + "\n";
+  out += "  linear cq    " + r.linear_cq.message + "\n";
+  out += "  mfcq         " +
+         (r.mfcq_decided_by == "licq" ? std::string("holds (implied by LICQ)")
+          : r.mfcq_decided_by == "multiplier_ranges"
+              ? std::string(to_string(r.mfcq_result)) + " (the multiplier set is " +
+                    (r.mfcq_result == verdict::holds ? "bounded" : "unbounded") + ": Gauvin 1977)"
+          : r.mfcq ? r.mfcq->message
+                   : std::string(to_string(r.mfcq_result))) +
+         "\n";
+  if (r.result != verdict::fails) {
+    out += fmt::format("  uniqueness   unique {}, bounded {}\n", to_string(r.multipliers_unique),
+                       to_string(r.multipliers_bounded));
+    std::string ranges;
+    for (const auto& range : r.ranges)
+      ranges += fmt::format("{}{} in [{:.6g}, {:.6g}]", ranges.empty() ? "" : ", ",
+                            names(range.row), range.lower, range.upper);
+    if (!ranges.empty()) out += "  ranges       " + ranges + "\n";
+    out += "  strongly     " + join_rows(r.strongly_active, names) + "\n";
+    out += "  weakly       " + join_rows(r.weakly_active, names) +
+           fmt::format(" (complementarity margin {:.3g})\n", r.complementarity_margin);
+  }
+  out += fmt::format("  second order {}: {}\n", to_string(r.second_order.result),
+                     r.second_order.reason);
+  for (const auto& premise : r.premises) out += "  premise      " + premise + "\n";
+  return out + render_findings(r.findings);
+}
+
 /// Shared parser: an empty spec or `f`.
 struct report_formatter {
   bool full = false;
@@ -219,3 +377,9 @@ template <>
 struct fmt::formatter<qualify::lp_result> : qualify::detail::report_formatter {};
 template <>
 struct fmt::formatter<qualify::affine_slater_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::derivative_check_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::kkt_report> : qualify::detail::report_formatter {};
+template <>
+struct fmt::formatter<qualify::slater_report> : qualify::detail::report_formatter {};

@@ -2,6 +2,8 @@
 // SPDX-License-Identifier: MIT
 #pragma once
 
+#include <qualify/derivative_check.hpp>
+#include <qualify/kkt.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/mfcq.hpp>
@@ -347,6 +349,225 @@ inline void write_body(json_writer& w, const affine_slater_report& r) {
   write_findings(w, r.findings);
 }
 
+inline void write_body(json_writer& w, const derivative_check_report& r) {
+  w.field("check", "derivatives")
+      .field("verdict", to_string(r.result))
+      .field("message", r.message)
+      .field("variables", r.variables)
+      .field("constraints", r.constraints)
+      .key("relative_step_requested");
+  if (r.relative_step_requested)
+    w.value(*r.relative_step_requested);
+  else
+    w.value("automatic");
+  w.field("relative_step", r.relative_step)
+      .field("relative_tolerance", r.relative_tolerance)
+      .field("scale_floor", r.scale_floor)
+      .field("value_precision", r.value_precision)
+      .field("estimate_safety", r.estimate_safety)
+      .field("step_reductions", r.step_reductions)
+      .field("entries", r.entries)
+      .field("agreeing", r.agreeing)
+      .field("disagreeing", r.disagreeing)
+      .field("undecided", r.undecided)
+      .field("not_evaluated", r.not_evaluated)
+      .field("max_bound_ratio", r.max_bound_ratio)
+      .field("max_proven_ratio", r.max_proven_ratio)
+      .field("evaluations", r.evaluations)
+      .key("parts")
+      .begin_array();
+  for (const auto& p : r.parts)
+    w.begin_object()
+        .field("part", to_string(p.part))
+        .field("entries", p.entries)
+        .field("agreeing", p.agreeing)
+        .field("disagreeing", p.disagreeing)
+        .field("undecided", p.undecided)
+        .field("not_evaluated", p.not_evaluated)
+        .field("reduced_variables", p.reduced_variables)
+        .field("max_bound_ratio", p.max_bound_ratio)
+        .field("max_proven_ratio", p.max_proven_ratio)
+        .end_object();
+  w.end_array().key("worst").begin_array();
+  for (const auto& e : r.worst)
+    w.begin_object()
+        .field("verdict", to_string(e.result))
+        .field("part", to_string(e.part))
+        .field("name", e.name())
+        .field("row", e.row)
+        .field("label", e.label)
+        .field("variable", e.variable)
+        .field("hessian_row", e.hessian_row)
+        .field("analytic", e.analytic)
+        .field("finite_difference", e.finite_difference)
+        .field("error", e.error)
+        .field("truncation_estimate", e.truncation_estimate)
+        .field("rounding_estimate", e.rounding_estimate)
+        .field("error_estimate", e.error_estimate)
+        .field("tolerance", e.tolerance)
+        .field("scale", e.scale)
+        .field("step", e.step)
+        .end_object();
+  w.end_array().field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
+inline void write_residual(json_writer& w, std::string_view k, const kkt_residual& r) {
+  w.key(k)
+      .begin_object()
+      .field("verdict", to_string(r.result))
+      .field("raw", r.raw)
+      .field("scaled", r.scaled)
+      .field("threshold", r.threshold)
+      .field("margin", r.margin)
+      .field("worst", r.worst)
+      .field("over", r.over)
+      .end_object();
+}
+
+inline void write_reduced_hessian(json_writer& w, std::string_view k, const reduced_hessian& h) {
+  w.key(k)
+      .begin_object()
+      .field("computed", h.computed)
+      .field("rows", h.rows)
+      .field("constraint_rank", h.constraint_rank)
+      .field("dimension", h.dimension)
+      .field("positive", h.positive)
+      .field("negative", h.negative)
+      .field("zero", h.zero)
+      .field("smallest_eigenvalue", h.smallest)
+      .field("largest_eigenvalue", h.largest)
+      .end_object();
+}
+
+inline void write_body(json_writer& w, const kkt_report& r) {
+  const auto& names = r.names;
+  const auto named = [&](const std::vector<Index>& rows) { return names(rows); };
+  // Keys of `multipliers` are row names; a name met twice gets " (row i)" so keys stay unique.
+  std::vector<std::string> keys;
+  for (Index i = 0; i < r.multipliers.size(); ++i) {
+    std::string key = names(i);
+    if (std::find(keys.begin(), keys.end(), key) != keys.end())
+      key += " (row " + std::to_string(i) + ")";
+    keys.push_back(std::move(key));
+  }
+  w.field("check", "kkt")
+      .field("verdict", to_string(r.result))
+      .field("classification", to_string(r.classification))
+      .field("message", r.message)
+      .field("variables", r.variables)
+      .field("constraints", r.constraints)
+      .field("multiplier_source", to_string(r.source))
+      .key("multipliers")
+      .begin_object();
+  for (Index i = 0; i < r.multipliers.size(); ++i) w.field(keys[std::size_t(i)], r.multipliers(i));
+  w.end_object().key("residuals").begin_object();
+  write_residual(w, "stationarity", r.stationarity);
+  write_residual(w, "primal", r.primal);
+  write_residual(w, "dual", r.dual);
+  write_residual(w, "complementarity", r.complementarity);
+  w.end_object()
+      .field("multiplier_scale", r.multiplier_scale)
+      .field("stationarity_norm", r.stationarity_norm)
+      .field("estimate_iterations", r.estimate_iterations);
+  write_vector(w, "row_violation", r.row_violation);
+  w.field("activity_tolerance", r.active.activity_tolerance)
+      .field("active", named(r.active.active))
+      .field("near_active", named(r.active.near_active))
+      .field("violated", named(r.active.violated))
+      .field("strongly_active", named(r.strongly_active))
+      .field("weakly_active", named(r.weakly_active))
+      .field("complementarity_margin", r.complementarity_margin)
+      .field("licq", to_string(r.licq.result))
+      .field("linear_cq", to_string(r.linear_cq.result))
+      .field("mfcq", to_string(r.mfcq_result))
+      .field("mfcq_decided_by", r.mfcq_decided_by)
+      .field("multipliers_unique", to_string(r.multipliers_unique))
+      .field("multipliers_bounded", to_string(r.multipliers_bounded))
+      .key("multiplier_ranges")
+      .begin_array();
+  for (const auto& range : r.ranges)
+    w.begin_object()
+        .field("row", range.row)
+        .field("name", names(range.row))
+        .field("lower", range.lower)
+        .field("upper", range.upper)
+        .end_object();
+  const auto& so = r.second_order;
+  w.end_array()
+      .field("second_order", to_string(so.result))
+      .key("second_order_detail")
+      .begin_object()
+      .field("reason", so.reason)
+      .field("hessian_source", so.hessian_source)
+      .field("hessian_norm", so.hessian_norm)
+      .field("hessian_error_estimate", so.hessian_error_estimate)
+      .field("eigenvalue_threshold", so.eigenvalue_threshold);
+  write_reduced_hessian(w, "sufficient", so.sufficient);
+  write_reduced_hessian(w, "necessary", so.necessary);
+  w.end_object().field("premises", r.premises).key("licq_report").begin_object();
+  write_body(w, r.licq);
+  w.end_object().key("linear_cq_report").begin_object();
+  write_body(w, r.linear_cq);
+  w.end_object();
+  if (r.mfcq) {
+    w.key("mfcq_report").begin_object();
+    write_body(w, *r.mfcq);
+    w.end_object();
+  }
+  w.field("labels", names.labels());
+  write_findings(w, r.findings);
+}
+
+inline void write_body(json_writer& w, const slater_report& r) {
+  auto names = [&](const std::vector<Index>& rows) { return r.names(rows); };
+  w.field("check", "slater_model")
+      .field("verdict", r.verdict_name())
+      .field("message", r.message)
+      .field("method", r.method)
+      .field("feasibility", to_string(r.feasible))
+      .field("strict_interior", to_string(r.strict_interior))
+      .field("variables", r.variables)
+      .field("constraints", r.constraints)
+      .field("convex_rows", r.convex_rows)
+      .field("affine_rows", r.affine_rows)
+      .field("equality_rows", r.equality_rows)
+      .field("not_convex_rows", r.not_convex_rows)
+      .field("margin_tolerance", r.margin_tolerance)
+      .field("undecided_band", r.undecided_band)
+      .field("feasibility_tolerance", r.feasibility_tolerance)
+      .field("search_radius", r.search_radius);
+  write_vector(w, "weights", r.weights);
+  w.field("upper_bound", r.upper_bound).field("lower_bound", r.lower_bound);
+  write_vector(w, "point", r.point);
+  write_vector(w, "point_values", r.point_values);
+  w.field("point_margin", r.point_margin).field("point_violation", r.point_violation);
+  write_vector(w, "interior_point", r.interior_point);
+  w.field("interior_slack", r.interior_slack);
+  write_vector(w, "multipliers", r.multipliers);
+  write_vector(w, "certificate_point", r.certificate_point);
+  w.field("certificate_value", r.certificate_value)
+      .field("certificate_gradient", r.certificate_gradient)
+      .field("proof_radius", r.proof_radius)
+      .field("pinching_rows", r.pinching)
+      .field("pinching", names(r.pinching))
+      .field("certificate_affine_rows", r.certificate_affine_rows)
+      .field("implicit_equality_rows", r.implicit_equalities)
+      .field("implicit_equalities", names(r.implicit_equalities));
+  if (r.affine) {
+    w.key("affine").begin_object();
+    write_body(w, *r.affine);
+    w.end_object();
+  }
+  w.field("newton_steps", r.newton_steps)
+      .field("barrier_rounds", r.barrier_rounds)
+      .field("barrier_parameter", r.barrier_parameter)
+      .field("callback_evaluations", r.callback_evaluations)
+      .field("domain_exits", r.domain_exits)
+      .field("labels", r.names.labels());
+  write_findings(w, r.findings);
+}
+
 template <class Report>
 std::string report_json(const Report& r) {
   json_writer w;
@@ -365,6 +586,9 @@ inline std::string to_json(const affine_check_report& r) { return detail::report
 inline std::string to_json(const mfcq_report& r) { return detail::report_json(r); }
 inline std::string to_json(const lp_result& r) { return detail::report_json(r); }
 inline std::string to_json(const affine_slater_report& r) { return detail::report_json(r); }
+inline std::string to_json(const derivative_check_report& r) { return detail::report_json(r); }
+inline std::string to_json(const kkt_report& r) { return detail::report_json(r); }
+inline std::string to_json(const slater_report& r) { return detail::report_json(r); }
 inline std::string to_json(const qualification_report& r) {
   detail::json_writer w;
   w.begin_object().field("schema_version", json_schema_version).key("licq").begin_object();

@@ -81,6 +81,87 @@ inline std::string validate_model(const callback_model& model) {
   return {};
 }
 
+namespace detail {
+
+/// "WHAT entry i is NaN" (vectors) or "WHAT entry (i, j) is +Inf" for the first non-finite
+/// entry; empty when every entry is finite.
+template <class Derived>
+std::string non_finite_entry(const Eigen::MatrixBase<Derived>& a, const std::string& what) {
+  const auto at = first_non_finite(a);
+  if (!at) return {};
+  const std::string where = Derived::ColsAtCompileTime == 1 ? std::to_string(at->row)
+                                                            : "(" + std::to_string(at->row) + ", " +
+                                                                  std::to_string(at->col) + ")";
+  return what + " entry " + where + " is " + describe_non_finite(a(at->row, at->col));
+}
+
+}  // namespace detail
+
+/// What makes an input unusable: a finding code (see the README's table) and a message naming
+/// the entry; both empty when the input is usable.
+struct input_problem {
+  std::string code;
+  std::string message;
+  bool ok() const noexcept { return message.empty(); }
+};
+
+/// Checks that a model_at_point is usable: x has n >= 1 entries, the objective gradient n, the
+/// objective Hessian (when given) is n x n; `values`, `types` and `kinds` have one entry per
+/// row of the m x n `jacobian`; `labels` and `hessians` are empty or have m entries, each
+/// Hessian given is n x n; every number is finite.
+inline input_problem validate_point(const model_at_point& p) {
+  const auto n = p.x.size(), m = p.jacobian.rows();
+  const auto sizes = [](Index got, Index want, const char* what, const char* of) {
+    return std::string(what) + " has " + std::to_string(got) + " entries, expected " +
+           std::to_string(want) + " (" + of + ")";
+  };
+  const auto square = [&](const Eigen::MatrixXd& h, const std::string& what) -> input_problem {
+    if (h.rows() == n && h.cols() == n) return {};
+    return {"dimension_mismatch", what + " is " + std::to_string(h.rows()) + " x " +
+                                      std::to_string(h.cols()) + ", expected " + std::to_string(n) +
+                                      " x " + std::to_string(n)};
+  };
+  if (n == 0) return {"dimension_mismatch", "x has no entries"};
+  if (p.objective_gradient.size() != n)
+    return {"dimension_mismatch",
+            sizes(p.objective_gradient.size(), n, "objective_gradient", "the length of x")};
+  if (m > 0 && p.jacobian.cols() != n)
+    return {"dimension_mismatch", "jacobian has " + std::to_string(p.jacobian.cols()) +
+                                      " columns, expected " + std::to_string(n) +
+                                      " (the length of x)"};
+  if (p.values.size() != m)
+    return {"value_count", sizes(p.values.size(), m, "values", "the rows of jacobian")};
+  if (Index(p.types.size()) != m)
+    return {"type_count", sizes(Index(p.types.size()), m, "types", "the rows of jacobian")};
+  if (Index(p.kinds.size()) != m)
+    return {"kind_count", sizes(Index(p.kinds.size()), m, "kinds", "the rows of jacobian")};
+  if (!p.labels.empty() && Index(p.labels.size()) != m)
+    return {"label_count", sizes(Index(p.labels.size()), m, "labels", "the rows of jacobian")};
+  if (!p.hessians.empty() && Index(p.hessians.size()) != m)
+    return {"dimension_mismatch",
+            sizes(Index(p.hessians.size()), m, "hessians", "the rows of jacobian, or none")};
+  const auto finite = [](const auto& a, const std::string& what) -> input_problem {
+    std::string message = detail::non_finite_entry(a, what);
+    if (message.empty()) return {};
+    return {"non_finite_entry", std::move(message)};
+  };
+  if (auto bad = finite(p.x, "x"); !bad.ok()) return bad;
+  if (auto bad = finite(p.objective_gradient, "objective_gradient"); !bad.ok()) return bad;
+  if (auto bad = finite(p.values, "values"); !bad.ok()) return bad;
+  if (auto bad = finite(p.jacobian, "jacobian"); !bad.ok()) return bad;
+  const auto hessian = [&](const Eigen::MatrixXd& h, const std::string& what) {
+    input_problem bad = square(h, what);
+    return bad.ok() ? finite(h, what) : bad;
+  };
+  if (p.objective_hessian)
+    if (auto bad = hessian(*p.objective_hessian, "objective_hessian"); !bad.ok()) return bad;
+  for (std::size_t i = 0; i < p.hessians.size(); ++i)
+    if (p.hessians[i])
+      if (auto bad = hessian(*p.hessians[i], "hessians[" + std::to_string(i) + "]"); !bad.ok())
+        return bad;
+  return {};
+}
+
 /// What one evaluation of a callback model gave: `point` when `error` is empty, else the
 /// finding code (`callback_failed`, `callback_size`, `non_finite_entry`) and a message naming
 /// the callback and the entry.

@@ -14,3 +14,5 @@
 #include <qualify/lp.hpp>
 #include <qualify/mfcq.hpp>
 #include <qualify/slater.hpp>
+#include <qualify/derivative_check.hpp>
+#include <qualify/kkt.hpp>

@@ -1,4 +1,5 @@
-// qualify: Slater's condition, the strict interior and the implicit equalities of affine systems.
+// qualify: Slater's condition, the strict interior and the implicit equalities: affine systems by
+// LPs, convex callback models by a phase-one barrier method.
 // SPDX-License-Identifier: MIT
 #pragma once
 
@@ -8,7 +9,10 @@
 #include <cmath>
 #include <limits>
 #include <optional>
+#include <qualify/detail/phase_one.hpp>
+#include <qualify/linear_cq.hpp>
 #include <qualify/lp.hpp>
+#include <qualify/model.hpp>
 #include <qualify/report.hpp>
 #include <string>
 #include <string_view>
@@ -198,6 +202,7 @@ struct slater_system {
   std::vector<slater_side> sides;
   std::vector<Index> side_lower, side_upper;  // per row: side index or -1
   std::vector<Index> col_lower_side, col_upper_side;
+  Index equality_rows = 0, fixed_columns = 0;
 };
 
 /// rho_k(x) for every side and the largest relative violation of any row or bound.
@@ -364,6 +369,66 @@ inline std::string slater_validate(const lp_sparse& A, const Eigen::VectorXd& rl
   return {};
 }
 
+/// The system with absent bounds normalised (beyond `infinity` they count as none), row norms
+/// and its inequality sides (rows with row_lower == row_upper are equalities, columns with
+/// equal bounds fixed). The caller has validated the data.
+inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::VectorXd ru,
+                                    Eigen::VectorXd cl, Eigen::VectorXd cu, double infinity) {
+  const Index m = A.rows(), n = A.cols();
+  const double inf = std::numeric_limits<double>::infinity();
+  for (Eigen::VectorXd* v : {&rl, &cl})
+    for (Index i = 0; i < v->size(); ++i)
+      if ((*v)[i] <= -infinity) (*v)[i] = -inf;
+  for (Eigen::VectorXd* v : {&ru, &cu})
+    for (Index i = 0; i < v->size(); ++i)
+      if ((*v)[i] >= infinity) (*v)[i] = inf;
+  slater_system p;
+  p.A = std::move(A);
+  p.A.makeCompressed();
+  p.rows = p.A;
+  p.rl = rl;
+  p.ru = ru;
+  p.cl = cl;
+  p.cu = cu;
+  p.row_norm = Eigen::VectorXd::Zero(m);
+  for (Index i = 0; i < m; ++i) p.row_norm[i] = p.rows.row(i).norm();
+  p.side_lower.assign(std::size_t(m), -1);
+  p.side_upper.assign(std::size_t(m), -1);
+  p.col_lower_side.assign(std::size_t(n), -1);
+  p.col_upper_side.assign(std::size_t(n), -1);
+  auto add_side = [&](bool column, Index index, bound_side side, double bound, double norm) {
+    p.sides.push_back({column, index, side, bound, norm + std::abs(bound)});
+    return static_cast<Index>(p.sides.size()) - 1;
+  };
+  for (Index i = 0; i < m; ++i) {
+    if (rl[i] == ru[i]) {
+      ++p.equality_rows;
+      continue;
+    }
+    if (std::isfinite(rl[i]))
+      p.side_lower[std::size_t(i)] = add_side(false, i, bound_side::lower, rl[i], p.row_norm[i]);
+    if (std::isfinite(ru[i]))
+      p.side_upper[std::size_t(i)] = add_side(false, i, bound_side::upper, ru[i], p.row_norm[i]);
+  }
+  for (Index j = 0; j < n; ++j) {
+    if (cl[j] == cu[j]) {
+      ++p.fixed_columns;
+      continue;
+    }
+    if (std::isfinite(cl[j]))
+      p.col_lower_side[std::size_t(j)] = add_side(true, j, bound_side::lower, cl[j], 1.0);
+    if (std::isfinite(cu[j]))
+      p.col_upper_side[std::size_t(j)] = add_side(true, j, bound_side::upper, cu[j], 1.0);
+  }
+  return p;
+}
+
+/// The margin LP of check_affine_slater (max t s.t. rho_k(x) >= t on every side,
+/// -1 <= t <= 1; t is the last column): the phase-one LP of an affine system.
+inline lp_general slater_margin_lp(const slater_system& p) {
+  return slater_build(p, std::vector<Index>(p.sides.size(), 0), 1, -1.0, 1.0);
+}
+
 inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, Eigen::VectorXd ru,
                                               Eigen::VectorXd cl, Eigen::VectorXd cu,
                                               const affine_slater_options& o,
@@ -392,53 +457,9 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
   if (auto bad = slater_validate(A, rl, ru, cl, cu, code); !bad.empty())
     return slater_invalid(rep, code, bad);
 
-  // Bounds beyond the infinity threshold are absent, as the LP engine reads them.
-  const double inf = std::numeric_limits<double>::infinity(), big = o.lp.infinity_threshold;
-  for (Eigen::VectorXd* v : {&rl, &cl})
-    for (Index i = 0; i < v->size(); ++i)
-      if ((*v)[i] <= -big) (*v)[i] = -inf;
-  for (Eigen::VectorXd* v : {&ru, &cu})
-    for (Index i = 0; i < v->size(); ++i)
-      if ((*v)[i] >= big) (*v)[i] = inf;
-
-  slater_system p;
-  p.A = std::move(A);
-  p.A.makeCompressed();
-  p.rows = p.A;
-  p.rl = rl;
-  p.ru = ru;
-  p.cl = cl;
-  p.cu = cu;
-  p.row_norm = Eigen::VectorXd::Zero(m);
-  for (Index i = 0; i < m; ++i) p.row_norm[i] = p.rows.row(i).norm();
-  p.side_lower.assign(std::size_t(m), -1);
-  p.side_upper.assign(std::size_t(m), -1);
-  p.col_lower_side.assign(std::size_t(n), -1);
-  p.col_upper_side.assign(std::size_t(n), -1);
-  auto add_side = [&](bool column, Index index, bound_side side, double bound, double norm) {
-    p.sides.push_back({column, index, side, bound, norm + std::abs(bound)});
-    return static_cast<Index>(p.sides.size()) - 1;
-  };
-  for (Index i = 0; i < m; ++i) {
-    if (rl[i] == ru[i]) {
-      ++rep.equality_rows;
-      continue;
-    }
-    if (std::isfinite(rl[i]))
-      p.side_lower[std::size_t(i)] = add_side(false, i, bound_side::lower, rl[i], p.row_norm[i]);
-    if (std::isfinite(ru[i]))
-      p.side_upper[std::size_t(i)] = add_side(false, i, bound_side::upper, ru[i], p.row_norm[i]);
-  }
-  for (Index j = 0; j < n; ++j) {
-    if (cl[j] == cu[j]) {
-      ++rep.fixed_columns;
-      continue;
-    }
-    if (std::isfinite(cl[j]))
-      p.col_lower_side[std::size_t(j)] = add_side(true, j, bound_side::lower, cl[j], 1.0);
-    if (std::isfinite(cu[j]))
-      p.col_upper_side[std::size_t(j)] = add_side(true, j, bound_side::upper, cu[j], 1.0);
-  }
+  slater_system p = slater_prepare(std::move(A), rl, ru, cl, cu, o.lp.infinity_threshold);
+  rep.equality_rows = p.equality_rows;
+  rep.fixed_columns = p.fixed_columns;
   const Index K = static_cast<Index>(p.sides.size());
   rep.inequality_sides = K;
   const double tau = o.slack_tolerance, strict = o.undecided_band * o.slack_tolerance;
@@ -787,6 +808,640 @@ affine_slater_report check_affine_slater(
   detail::lp_sparse S = A.derived().template cast<double>();
   return detail::affine_slater_run(std::move(S), row_lower, row_upper, col_lower, col_upper,
                                    options, std::move(row_labels), std::move(col_labels));
+}
+
+/// Where check_slater takes the second derivatives of the convex rows from.
+enum class hessian_source {
+  automatic,    ///< exact when the model has constraint_hessian, else quasi_newton
+  exact,        ///< constraint_hessian (required)
+  quasi_newton  ///< a damped BFGS approximation from Jacobians (constraint_hessian unused)
+};
+
+constexpr std::string_view to_string(hessian_source h) noexcept {
+  switch (h) {
+    case hessian_source::exact:
+      return "exact";
+    case hessian_source::quasi_newton:
+      return "quasi_newton";
+    case hessian_source::automatic:
+      break;
+  }
+  return "automatic";
+}
+
+/// Settings of `check_slater`. Constraint i is measured relative to its weight
+///   w_i = ||grad c_i(x0)||_2 + |c_i(x0)|   (1 when that is 0)
+/// taken at the start point x0, so that a constraint multiplied by a positive constant gives
+/// the same answers (for an affine row at x0 = 0 this is the ||a_i|| + |b_i| of
+/// affine_slater_options). The phase one bounds s* = min over the affine feasible set S of
+/// max_i g_i(x)/w_i over the convex rows: Slater's condition holds iff s* < 0.
+struct slater_options {
+  /// x0: where the affine rows' coefficients and the weights are read, and where the phase
+  /// one starts when x0 is strictly inside the affine rows. nullopt: the zero vector.
+  std::optional<Eigen::VectorXd> start;
+  /// tau. Fails needs a verified lower bound s* >= -tau; holds needs a point with every
+  /// convex row at g_i/w_i <= -undecided_band * tau. Default 1e-7, as
+  /// affine_slater_options::slack_tolerance (common practice, no source).
+  double margin_tolerance = 1e-7;
+  /// See margin_tolerance; between the two bounds the answer is undecided.
+  double undecided_band = 10.0;
+  /// A point meets an affine row or an equality when c_i(x) <= tol * (||a_i||_2 + |a_i|^T |x|
+  /// + |b_i|) (equalities: |c_i(x)| <=), with a_i = grad c_i(x) and b_i = a_i x - c_i(x): the
+  /// size of the terms summed, as affine_slater_options::feasibility_tolerance. The model is
+  /// infeasible when the verified lower bound exceeds this tolerance.
+  double feasibility_tolerance = 1e-6;
+  /// The phase one searches the ball ||x - x_s|| <= R around its start x_s, with
+  /// R = search_radius * (1 + ||x_s||_inf); "fails" and "infeasible" are proven for the points
+  /// of that ball (and `proof_radius` says how far beyond). Default 1e6: far beyond the scale
+  /// of the start, yet small enough that R * ||grad phi|| stays below tau when the centring
+  /// is exact to rounding (common practice, no source).
+  double search_radius = 1e6;
+  /// Multipliers below support_threshold * (largest multiplier) do not count as pinching.
+  double support_threshold = 1e-6;
+  /// The barrier parameter t grows by this factor after each centring (Boyd and
+  /// Vandenberghe, 2004, sec. 11.3.1, suggest 10 to 20).
+  double barrier_factor = 10.0;
+  /// The phase one stops, undecided, once (number of barrier terms) / t <= final_gap (the
+  /// bound on s(t) - s* at the centre). Default 1e-11: 1e-4 * tau, beyond which rounding
+  /// in the centring dominates (common practice, no source).
+  double final_gap = 1e-11;
+  /// Newton steps of the phase one, all centrings together.
+  int max_newton_steps = 500;
+  hessian_source hessians = hessian_source::automatic;
+  /// The rows declared affine are compared between x0 and the point the answer rests on.
+  affine_check_options affine_check;
+  /// For the affine part (the LP sequence of check_affine_slater).
+  affine_slater_options affine;
+
+  /// Empty when valid, else a message naming the field and the rule it breaks.
+  std::string validate() const {
+    auto unit = [](double v) { return std::isfinite(v) && v > 0 && v < 1; };
+    if (start && !start->allFinite()) return "slater_options.start has a non-finite entry";
+    if (!unit(margin_tolerance)) return "slater_options.margin_tolerance must be in (0, 1)";
+    if (!(std::isfinite(undecided_band) && undecided_band >= 1 &&
+          undecided_band * margin_tolerance < 1))
+      return "slater_options.undecided_band must be finite, >= 1 and below 1 / margin_tolerance";
+    if (!unit(feasibility_tolerance))
+      return "slater_options.feasibility_tolerance must be in (0, 1)";
+    if (!(std::isfinite(search_radius) && search_radius > 0))
+      return "slater_options.search_radius must be finite and > 0";
+    if (!(support_threshold >= 0 && support_threshold < 1))
+      return "slater_options.support_threshold must be in [0, 1)";
+    if (!(std::isfinite(barrier_factor) && barrier_factor > 1))
+      return "slater_options.barrier_factor must be finite and > 1";
+    if (!(final_gap > 0 && final_gap < margin_tolerance))
+      return "slater_options.final_gap must be in (0, margin_tolerance)";
+    if (max_newton_steps < 1) return "slater_options.max_newton_steps must be >= 1";
+    if (auto bad = affine_check.validate(); !bad.empty()) return "slater_options." + bad;
+    if (auto bad = affine.validate(); !bad.empty()) return "slater_options.affine: " + bad;
+    return {};
+  }
+};
+
+/// What `check_slater` found for the callback model g_i(x) <= 0, h_j(x) = 0. Rows are the
+/// model's constraints in its order.
+struct slater_report {
+  /// The refined Slater condition (convex rows strict, affine rows as <=): holds (a point,
+  /// verified), fails (a verified dual certificate; also when the model is infeasible: see
+  /// `feasible`), undecided, invalid_input (also when the model is not declared convex: see
+  /// `not_convex_rows`).
+  verdict result = verdict::not_checked;
+  feasibility feasible = feasibility::not_checked;
+  /// Every inequality strict, the affine ones too: holds (`interior_point`), fails (implicit
+  /// equalities, or the refined condition fails), undecided.
+  verdict strict_interior = verdict::not_checked;
+  std::string message = "check_slater was not called";
+  /// "vacuous" (no constraint), "affine_lp" (every row affine), "phase_one_exact" or
+  /// "phase_one_quasi_newton" (the barrier method with that Hessian source); "" when refused.
+  std::string method;
+  Index variables = 0, constraints = 0;
+  std::vector<Index> convex_rows, affine_rows, equality_rows;  ///< inequalities by kind; equalities
+  std::vector<Index> not_convex_rows;  ///< rows whose declaration rules Slater's condition out
+  double margin_tolerance = 0, undecided_band = 0, feasibility_tolerance = 0;  ///< as used
+  double search_radius = 0;                                                    ///< R, absolute
+  Eigen::VectorXd weights;  ///< w_i (see slater_options)
+  /// Bounds on s* = min over S of max_i g_i(x)/w_i: the best point's value (upper) and the
+  /// certificate's verified bound over S within the search ball (lower); NaN when not found.
+  double upper_bound = std::numeric_limits<double>::quiet_NaN();
+  double lower_bound = std::numeric_limits<double>::quiet_NaN();
+  /// result == holds: a point meeting every affine row and equality and every convex row
+  /// strictly, with the constraint values there (callbacks evaluated directly), its largest
+  /// g_i/w_i over the convex rows (the margin, < 0) and its largest relative violation of an
+  /// affine row or equality.
+  Eigen::VectorXd point, point_values;
+  double point_margin = std::numeric_limits<double>::quiet_NaN();
+  double point_violation = std::numeric_limits<double>::quiet_NaN();
+  /// strict_interior == holds: a point where every inequality is strict, and its smallest
+  /// relative slack (convex rows: -g_i/w_i; affine rows as in affine_slater_options).
+  Eigen::VectorXd interior_point;
+  double interior_slack = std::numeric_limits<double>::quiet_NaN();
+  /// The dual certificate (fails, infeasible, or the last one of an undecided run): per row,
+  /// lambda_i >= 0 on the convex rows (summing to 1), nu_k >= 0 on the affine inequalities,
+  /// mu_j on the equalities, all on rows divided by w_i; read at `certificate_point`, where
+  /// phi = sum multipliers_i c_i/w_i has value `certificate_value` and gradient norm
+  /// `certificate_gradient`. No point of S within `proof_radius` of certificate_point has
+  /// every convex row at g_i/w_i < -tau (infinite when the gradient is 0).
+  Eigen::VectorXd multipliers, certificate_point;
+  double certificate_value = std::numeric_limits<double>::quiet_NaN();
+  double certificate_gradient = std::numeric_limits<double>::quiet_NaN();
+  double proof_radius = std::numeric_limits<double>::quiet_NaN();
+  std::vector<Index> pinching;                 ///< convex rows with lambda > 0, largest first
+  std::vector<Index> certificate_affine_rows;  ///< affine rows and equalities with nu, mu != 0
+  /// Affine inequalities tight on the whole feasible set of the affine part (then also on
+  /// the model's, which lies inside it).
+  std::vector<Index> implicit_equalities;
+  /// The affine part's own report (its rows are the model's; convex rows appear as free
+  /// rows); it holds the Farkas certificate when the affine part is infeasible.
+  std::optional<affine_slater_report> affine;
+  int newton_steps = 0, barrier_rounds = 0, callback_evaluations = 0, domain_exits = 0;
+  double barrier_parameter = 0;  ///< t at the end
+  row_names names;
+  std::vector<finding> findings;
+
+  /// The verdict as JSON prints it: "not_convex" when refused, "infeasible" when the model
+  /// has no feasible point, else to_string(result).
+  std::string_view verdict_name() const noexcept {
+    if (!not_convex_rows.empty()) return "not_convex";
+    return feasible == feasibility::infeasible ? std::string_view("infeasible") : to_string(result);
+  }
+};
+
+namespace detail {
+
+/// The constraints at one point, evaluated by the callbacks: the largest g_i/w_i over the
+/// convex rows, the smallest relative slack of the affine inequalities and the largest
+/// relative violation of an affine row or equality.
+struct slater_point_values {
+  bool ok = false;
+  Eigen::VectorXd values;
+  double convex_max = -std::numeric_limits<double>::infinity();
+  double affine_min_slack = std::numeric_limits<double>::infinity();
+  double violation = 0;
+};
+
+inline slater_point_values slater_measure(model_probe& probe, const slater_report& rep,
+                                          const Eigen::VectorXd& x) {
+  slater_point_values out;
+  Eigen::MatrixXd jac;
+  if (!probe.values(x, out.values) || !probe.jacobian(x, jac)) return out;
+  out.ok = true;
+  for (Index i : rep.convex_rows)
+    out.convex_max = std::max(out.convex_max, out.values[i] / rep.weights[i]);
+  auto sizes = [&](Index i, double& norm, double& offset) {
+    norm = jac.row(i).norm();
+    offset = std::abs(jac.row(i).dot(x) - out.values[i]);
+    return norm + jac.row(i).cwiseAbs().dot(x.cwiseAbs()) + offset;
+  };
+  double norm = 0, offset = 0;
+  for (Index i : rep.affine_rows) {
+    const double size = sizes(i, norm, offset);
+    if (out.values[i] > 0) out.violation = std::max(out.violation, out.values[i] / size);
+    const double weight = norm + offset;
+    const double slack = -out.values[i];
+    out.affine_min_slack = std::min(out.affine_min_slack, weight > 0 ? slack / weight
+                                                                     : (slack > 0   ? 1.0
+                                                                        : slack < 0 ? -1.0
+                                                                                    : 0.0));
+  }
+  for (Index j : rep.equality_rows) {
+    const double size = sizes(j, norm, offset);
+    const double v = std::abs(out.values[j]);
+    if (v > 0) out.violation = std::max(out.violation, size > 0 ? v / size : 1.0);
+  }
+  return out;
+}
+
+inline slater_report slater_refuse(slater_report rep, std::string code, std::string message) {
+  rep.result = verdict::invalid_input;
+  rep.strict_interior = verdict::invalid_input;
+  rep.message = "invalid input: " + message;
+  add_finding(rep.findings, severity::error, std::move(code), std::move(message), {}, rep.names);
+  return rep;
+}
+
+}  // namespace detail
+
+/// Slater's condition for a callback model declared convex: the refined form (some x meets
+/// every equality and affine inequality and has g_i(x) < 0 on every convex inequality), the
+/// strict interior (every inequality strict) and the implicit equalities of the affine part.
+/// Refuses (invalid_input, verdict_name "not_convex") when an equality is not declared affine
+/// or an inequality is declared nonlinear or unknown; the objective plays no part. Rows
+/// declared affine are read at the start point (a_i = grad c_i(x0), offset
+/// b_i = a_i x0 - c_i(x0)) and decided by check_affine_slater; with convex rows a phase-one
+/// barrier method (see detail::run_phase_one) bounds s* from both sides, and every figure
+/// a verdict rests on is evaluated by the callbacks directly. Never throws for conditions of
+/// the data or of the callbacks.
+inline slater_report check_slater(const callback_model& model, const slater_options& options = {}) {
+  using Eigen::MatrixXd;
+  using Eigen::VectorXd;
+  slater_report rep;
+  const slater_options& o = options;
+  rep.margin_tolerance = o.margin_tolerance;
+  rep.undecided_band = o.undecided_band;
+  rep.feasibility_tolerance = o.feasibility_tolerance;
+  rep.variables = model.variables;
+  rep.constraints = model.constraints();
+  if (model.labels.size() == std::size_t(model.constraints())) rep.names = row_names(model.labels);
+  if (auto bad = o.validate(); !bad.empty()) return detail::slater_refuse(rep, "bad_option", bad);
+  if (auto bad = validate_model(model); !bad.empty())
+    return detail::slater_refuse(rep, "invalid_model", bad);
+  const Index n = model.variables, m = model.constraints();
+  if (o.start && o.start->size() != n)
+    return detail::slater_refuse(rep, "dimension_mismatch",
+                                 "slater_options.start has " + std::to_string(o.start->size()) +
+                                     " entries for " + std::to_string(n) + " variables");
+  if (o.hessians == hessian_source::exact && !model.constraint_hessian)
+    return detail::slater_refuse(rep, "missing_callback",
+                                 "slater_options.hessians is exact but the model has no "
+                                 "constraint_hessian");
+
+  // 1. The declarations: equalities affine, inequalities affine or convex.
+  for (Index i = 0; i < m; ++i) {
+    const constraint_kind kind = model.kinds[std::size_t(i)];
+    if (model.types[std::size_t(i)] == constraint_type::equality) {
+      (kind == constraint_kind::affine ? rep.equality_rows : rep.not_convex_rows).push_back(i);
+    } else if (kind == constraint_kind::affine) {
+      rep.affine_rows.push_back(i);
+    } else if (kind == constraint_kind::convex) {
+      rep.convex_rows.push_back(i);
+    } else {
+      rep.not_convex_rows.push_back(i);
+    }
+  }
+  if (!rep.not_convex_rows.empty()) {
+    rep.result = rep.strict_interior = verdict::invalid_input;
+    std::string list;
+    for (Index i : rep.not_convex_rows) {
+      const bool eq = model.types[std::size_t(i)] == constraint_type::equality;
+      const std::string kind(to_string(model.kinds[std::size_t(i)]));
+      list += (list.empty() ? "" : ", ") + rep.names(i) + " (" + (eq ? "equality" : "inequality") +
+              " declared " + kind + ")";
+      add_finding(rep.findings, severity::error, "not_convex",
+                  rep.names(i) + " is " + (eq ? "an equality" : "an inequality") + " declared " +
+                      kind +
+                      (eq ? ": a convex model needs affine equalities"
+                          : ": a convex model needs affine or convex inequalities"),
+                  {i}, rep.names);
+    }
+    rep.message = "not a convex model as declared, so Slater's condition does not apply: " + list;
+    return rep;
+  }
+
+  const VectorXd x0 = o.start ? *o.start : VectorXd::Zero(n);
+  if (m == 0) {
+    rep.result = rep.strict_interior = verdict::holds;
+    rep.feasible = feasibility::feasible;
+    rep.method = "vacuous";
+    rep.point = rep.interior_point = x0;
+    rep.point_values = VectorXd::Zero(0);
+    rep.message = "Slater's condition holds vacuously: the model has no constraint";
+    return rep;
+  }
+  const model_evaluation at_start = evaluate_model(model, x0, {false, false});
+  if (!at_start.ok())
+    return detail::slater_refuse(rep, at_start.code, at_start.error + " at the start point");
+  const VectorXd& c0 = at_start.point.values;
+  const MatrixXd& J0 = at_start.point.jacobian;
+  rep.weights.resize(m);
+  for (Index i = 0; i < m; ++i) {
+    const double w = J0.row(i).norm() + std::abs(c0[i]);
+    rep.weights[i] = w > 0 && std::isfinite(w) ? w : 1.0;
+  }
+  detail::model_probe probe(model, rep.names);
+  const double tau = o.margin_tolerance, strict = o.undecided_band * o.margin_tolerance;
+  const double inf = std::numeric_limits<double>::infinity();
+
+  // 2. The affine part: row i of A is grad c_i(x0) and its bound a_i x0 - c_i(x0); convex
+  // rows stay in as free rows without entries, so that rows keep the model's numbering.
+  VectorXd y;  // a point strictly inside the affine inequalities that are not implicit
+  std::vector<char> implicit(std::size_t(m), 0);
+  const bool has_affine = !rep.affine_rows.empty() || !rep.equality_rows.empty();
+  if (has_affine) {
+    MatrixXd A = MatrixXd::Zero(m, n);
+    VectorXd rl = VectorXd::Constant(m, -inf), ru = VectorXd::Constant(m, inf);
+    for (const auto* rows : {&rep.affine_rows, &rep.equality_rows})
+      for (Index i : *rows) {
+        A.row(i) = J0.row(i);
+        ru[i] = J0.row(i).dot(x0) - c0[i];
+        if (rows == &rep.equality_rows) rl[i] = ru[i];
+      }
+    const VectorXd free_lower = VectorXd::Constant(n, -inf),
+                   free_upper = VectorXd::Constant(n, inf);
+    rep.affine = check_affine_slater(A, rl, ru, free_lower, free_upper, o.affine, model.labels);
+    const affine_slater_report& a = *rep.affine;
+    if (a.result == verdict::invalid_input)
+      return detail::slater_refuse(rep, "invalid_jacobian",
+                                   "the affine part at the start point: " + a.message);
+    if (a.feasible == feasibility::infeasible) {
+      rep.method = "affine_lp";
+      rep.feasible = feasibility::infeasible;
+      rep.result = rep.strict_interior = verdict::fails;
+      rep.message =
+          "infeasible: the affine rows and equalities alone have no common point (a "
+          "Farkas certificate on " +
+          std::to_string(a.certificate_rows.size()) + " rows checks on the data, margin " +
+          detail::format_figure(a.certificate_margin) +
+          "), so Slater's condition fails in every form";
+      for (const auto& f : a.findings)
+        if (f.code == "infeasible") rep.findings.push_back(f);
+      return rep;
+    }
+    for (const auto& b : a.implicit_equalities) {
+      implicit[std::size_t(b.index)] = 1;
+      rep.implicit_equalities.push_back(b.index);
+      add_finding(rep.findings, severity::warning, "implicit_equality",
+                  rep.names(b.index) +
+                      " holds with equality on the whole feasible set of the affine part (and "
+                      "of the model)",
+                  {b.index}, rep.names);
+    }
+    if (a.result == verdict::holds) {
+      y = a.strict_point;
+    } else if (!rep.implicit_equalities.empty()) {
+      for (Index i : rep.implicit_equalities) rl[i] = ru[i];  // held as equalities
+      const auto again =
+          check_affine_slater(A, rl, ru, free_lower, free_upper, o.affine, model.labels);
+      if (again.result == verdict::holds) y = again.strict_point;
+    }
+    if (a.feasible == feasibility::undecided || (y.size() == 0 && a.result == verdict::undecided)) {
+      for (const auto& f : a.findings)
+        if (f.code == "lp_not_solved" || f.code == "undecided_inequality")
+          rep.findings.push_back(f);
+    }
+  }
+
+  auto verify_point = [&](const VectorXd& x) {
+    const auto at = detail::slater_measure(probe, rep, x);
+    if (!at.ok) return false;
+    if (!(at.violation <= o.feasibility_tolerance) ||
+        !(rep.convex_rows.empty() || at.convex_max <= -strict))
+      return false;
+    rep.point = x;
+    rep.point_values = at.values;
+    rep.point_margin = rep.convex_rows.empty() ? -inf : at.convex_max;
+    rep.point_violation = at.violation;
+    rep.upper_bound = rep.point_margin;
+    return true;
+  };
+  auto verify_interior = [&](const VectorXd& x) {
+    const auto at = detail::slater_measure(probe, rep, x);
+    if (!at.ok || !(at.violation <= o.feasibility_tolerance)) return false;
+    const double slack = std::min(-at.convex_max, at.affine_min_slack);
+    if (!(slack >= strict)) return false;
+    rep.interior_point = x;
+    rep.interior_slack = slack;
+    return true;
+  };
+  auto affine_interior = [&]() {
+    if (!rep.affine) return verdict::holds;
+    if (!rep.implicit_equalities.empty()) return verdict::fails;
+    return rep.affine->result == verdict::holds ? verdict::holds : verdict::undecided;
+  };
+  // The declared-affine rows between x0 and the point an answer rests on: a row that is not
+  // affine makes the affine part's coefficients wrong.
+  auto check_affinity = [&](const VectorXd& x) {
+    if (rep.affine_rows.empty() && rep.equality_rows.empty()) return true;
+    const auto at = evaluate_model(model, x, {false, false});
+    if (!at.ok()) return true;  // nothing to compare against
+    std::vector<point_sample<double>> samples{{x0, c0, J0},
+                                              {x, at.point.values, at.point.jacobian}};
+    const auto check = check_declared_affine(model.kinds, samples, o.affine_check, model.labels);
+    for (const auto& f : check.findings) rep.findings.push_back(f);
+    return check.result != verdict::fails;
+  };
+
+  // 3. Every row affine: the refined condition is feasibility, decided by the LPs; the point
+  // is checked again through the callbacks.
+  if (rep.convex_rows.empty()) {
+    rep.method = "affine_lp";
+    const auto& a = *rep.affine;
+    rep.feasible = a.feasible;
+    if (y.size() == n && verify_point(y)) {
+      rep.result = verdict::holds;
+      rep.strict_interior = affine_interior();
+      if (rep.strict_interior == verdict::holds && !verify_interior(y))
+        rep.strict_interior = verdict::undecided;
+      check_affinity(y);
+      rep.message =
+          "Slater's condition holds (every row affine: the model is feasible); strict "
+          "interior " +
+          std::string(to_string(rep.strict_interior)) + ": " + a.message;
+    } else {
+      rep.result = rep.strict_interior = verdict::undecided;
+      rep.message =
+          "undecided: the affine part's LPs gave no point that checks through the "
+          "callbacks (" +
+          a.message + ")";
+    }
+    rep.callback_evaluations = probe.evaluations;
+    return rep;
+  }
+
+  // 4. Convex rows: the phase one from a point strictly inside the affine rows, in the
+  // callbacks' domain (x0 when it qualifies, else the affine part's point, else the first
+  // point towards it from x0 where the callbacks answer).
+  const bool exact = o.hessians == hessian_source::exact ||
+                     (o.hessians == hessian_source::automatic && bool(model.constraint_hessian));
+  rep.method = exact ? "phase_one_exact" : "phase_one_quasi_newton";
+  detail::phase_one_setup setup;
+  setup.convex_rows = rep.convex_rows;
+  setup.equality_rows = rep.equality_rows;
+  for (Index i : rep.affine_rows)
+    (implicit[std::size_t(i)] ? setup.equality_rows : setup.affine_rows).push_back(i);
+  std::sort(setup.equality_rows.begin(), setup.equality_rows.end());
+  auto usable_start = [&](const VectorXd& x, bool strictly) {
+    const auto at = detail::slater_measure(probe, rep, x);
+    if (!at.ok || !(at.violation <= o.feasibility_tolerance)) return false;
+    if (!strictly) return true;
+    for (Index i : setup.affine_rows)
+      if (!(at.values[i] < 0)) return false;
+    for (Index i : setup.equality_rows)  // the implicit rows must hold as equalities here
+      if (implicit[std::size_t(i)] &&
+          !(std::abs(at.values[i]) <= o.feasibility_tolerance * rep.weights[i]))
+        return false;
+    return true;
+  };
+  VectorXd xs;
+  if (usable_start(x0, true)) {
+    xs = x0;
+  } else if (y.size() == n && usable_start(y, true)) {
+    xs = y;
+  } else if (y.size() == n && usable_start(x0, false)) {
+    for (int k = 1; k <= 40 && xs.size() == 0; ++k) {
+      const VectorXd trial = x0 + std::ldexp(1.0, -k) * (y - x0);
+      if (usable_start(trial, true)) xs = trial;
+    }
+  }
+  if (probe.fatal()) return detail::slater_refuse(rep, probe.code(), probe.error());
+  if (xs.size() == 0) {
+    rep.result = rep.strict_interior = verdict::undecided;
+    rep.feasible = feasibility::undecided;
+    const std::string why =
+        y.size() == n
+            ? "the callbacks do not answer at the affine part's interior point" +
+                  (probe.error().empty() ? std::string() : " (" + probe.error() + ")") +
+                  "; give slater_options.start inside the affine rows and the callbacks' domain"
+            : "the affine part's LPs gave no point strictly inside its inequalities";
+    add_finding(rep.findings, severity::warning, "no_start_point", why, {}, rep.names);
+    rep.message = "undecided: the phase one has no start: " + why;
+    return rep;
+  }
+  setup.weight = rep.weights;
+  setup.start = xs;
+  setup.radius = o.search_radius * (1 + xs.lpNorm<Eigen::Infinity>());
+  rep.search_radius = setup.radius;
+  setup.exact_hessians = exact;
+  setup.barrier_factor = o.barrier_factor;
+  setup.max_newton_steps = o.max_newton_steps;
+  setup.final_gap = o.final_gap;
+  setup.target = -strict;
+  const auto run = detail::run_phase_one(
+      probe, setup, [&](const detail::phase_one_certificate& c) { return c.lower_bound >= -tau; });
+  rep.newton_steps = run.newton_steps;
+  rep.barrier_rounds = run.rounds;
+  rep.domain_exits = run.domain_exits;
+  rep.barrier_parameter = run.barrier_parameter;
+  rep.upper_bound = run.best_max;
+  if (run.end == detail::phase_one_end::callback_error)
+    return detail::slater_refuse(rep, probe.code(), probe.error());
+  if (run.certificate) {
+    const auto& c = *run.certificate;
+    rep.lower_bound = c.lower_bound;
+    rep.multipliers = c.multipliers;
+    rep.certificate_point = c.x;
+    rep.certificate_value = c.value;
+    rep.certificate_gradient = c.gradient_norm;
+    rep.proof_radius = c.gradient_norm > 0 ? (c.value + tau) / c.gradient_norm : inf;
+    double largest = 0;
+    for (Index i : rep.convex_rows) largest = std::max(largest, c.multipliers[i]);
+    for (Index i : rep.convex_rows)
+      if (c.multipliers[i] > o.support_threshold * largest) rep.pinching.push_back(i);
+    std::stable_sort(rep.pinching.begin(), rep.pinching.end(),
+                     [&](Index a, Index b) { return c.multipliers[a] > c.multipliers[b]; });
+    double affine_largest = 0;
+    for (const auto* rows : {&rep.affine_rows, &rep.equality_rows})
+      for (Index i : *rows) affine_largest = std::max(affine_largest, std::abs(c.multipliers[i]));
+    for (Index i = 0; i < m; ++i)
+      if (model.kinds[std::size_t(i)] == constraint_kind::affine &&
+          std::abs(c.multipliers[i]) > o.support_threshold * std::max(largest, affine_largest))
+        rep.certificate_affine_rows.push_back(i);
+    if (c.distance > 0.1 * setup.radius)
+      add_finding(rep.findings, severity::warning, "phase_one_unbounded",
+                  "the phase one moved x to distance " + detail::format_figure(c.distance) +
+                      " of its start (search radius " + detail::format_figure(setup.radius) +
+                      "): some constraint keeps decreasing along a direction, and the lower "
+                      "bound holds within the search ball",
+                  {}, rep.names);
+  }
+  const std::string bounds = "s* in [" + detail::format_figure(rep.lower_bound) + ", " +
+                             detail::format_figure(rep.upper_bound) + "]";
+
+  if (run.end == detail::phase_one_end::found) {
+    if (verify_point(run.best_x)) {
+      rep.result = verdict::holds;
+      rep.feasible = feasibility::feasible;
+      rep.lower_bound = std::numeric_limits<double>::quiet_NaN();  // not needed: a point decides
+      if (affine_interior() == verdict::fails) {
+        rep.strict_interior = verdict::fails;
+      } else if (affine_interior() == verdict::undecided) {
+        rep.strict_interior = verdict::undecided;
+      } else {
+        // The barrier kept the affine rows strict; if one is too close, step towards the
+        // affine part's interior point (the segment stays strict in both parts).
+        rep.strict_interior = verdict::undecided;
+        if (verify_interior(run.best_x)) rep.strict_interior = verdict::holds;
+        for (int k = 1; k <= 30 && y.size() == n && rep.strict_interior != verdict::holds; ++k)
+          if (verify_interior(run.best_x + std::ldexp(1.0, -k) * (y - run.best_x)))
+            rep.strict_interior = verdict::holds;
+      }
+      rep.message =
+          "Slater's condition holds: a point has every convex row strictly negative "
+          "(largest g_i/w_i " +
+          detail::format_figure(rep.point_margin) + " <= " + detail::format_figure(-strict) +
+          ", affine rows met to " + detail::format_figure(rep.point_violation) +
+          " relative); strict interior " + std::string(to_string(rep.strict_interior));
+      check_affinity(rep.point);
+    } else {
+      rep.result = rep.strict_interior = verdict::undecided;
+      add_finding(rep.findings, severity::info, "point_not_verified",
+                  "the phase one's point did not pass the direct check of the constraints", {},
+                  rep.names);
+      rep.message =
+          "undecided: the phase one's point did not pass the direct check (" + bounds + ")";
+    }
+    rep.callback_evaluations = probe.evaluations;
+    return rep;
+  }
+
+  if (run.end == detail::phase_one_end::decided) {
+    const auto& c = *run.certificate;
+    const bool infeasible = c.lower_bound > o.feasibility_tolerance;
+    rep.result = rep.strict_interior = verdict::fails;
+    rep.feasible = infeasible ? feasibility::infeasible : feasibility::undecided;
+    if (!infeasible) {  // feasible too when the best point meets every row within tolerance
+      const auto at = detail::slater_measure(probe, rep, run.best_x);
+      if (at.ok && at.violation <= o.feasibility_tolerance &&
+          at.convex_max <= o.feasibility_tolerance)
+        rep.feasible = feasibility::feasible;
+    }
+    std::string rows;
+    for (std::size_t k = 0; k < rep.pinching.size() && k < 8; ++k)
+      rows += (k ? ", " : "") + detail::format_figure(c.multipliers[rep.pinching[k]]) + "*" +
+              rep.names(rep.pinching[k]);
+    if (rep.pinching.size() > 8) rows += ", ...";
+    const std::string where =
+        "within distance " + detail::format_figure(setup.radius) + " of the start";
+    if (infeasible) {
+      rep.message = "infeasible: no point " + where +
+                    " meets the convex rows (verified lower "
+                    "bound " +
+                    detail::format_figure(c.lower_bound) + " > " +
+                    detail::format_figure(o.feasibility_tolerance) +
+                    " on max g_i/w_i), so "
+                    "Slater's condition fails in every form; multipliers " +
+                    rows;
+      add_finding(rep.findings, severity::error, "infeasible",
+                  "the combination " + rows + " of the convex rows stays above " +
+                      detail::format_figure(c.lower_bound) + " on the affine feasible set " + where,
+                  rep.pinching, rep.names);
+    } else {
+      rep.message = "Slater's condition fails: no point " + where + " has every convex row below " +
+                    detail::format_figure(-tau) + " (verified lower bound " +
+                    detail::format_figure(c.lower_bound) + " on s*, best point " +
+                    detail::format_figure(rep.upper_bound) + "); pinching: " + rows;
+      add_finding(rep.findings, severity::error, "no_slater_point",
+                  "the combination " + rows +
+                      " of the convex rows (multipliers summing to 1) is "
+                      ">= " +
+                      detail::format_figure(c.lower_bound) + " on the affine feasible set " + where,
+                  rep.pinching, rep.names);
+    }
+    if (!check_affinity(c.x)) {
+      rep.result = rep.strict_interior = verdict::undecided;
+      rep.feasible = feasibility::undecided;
+      rep.message = "undecided: a row declared affine is not, so the certificate does not apply (" +
+                    bounds + ")";
+    }
+    rep.callback_evaluations = probe.evaluations;
+    return rep;
+  }
+
+  rep.result = rep.strict_interior = verdict::undecided;
+  rep.feasible = feasibility::undecided;
+  std::string why;
+  switch (run.end) {
+    case detail::phase_one_end::gap_reached:
+      why = "s* sits within the tolerance of 0 (" + bounds + ", tau " + detail::format_figure(tau) +
+            ")";
+      break;
+    default:
+      why = run.message + " (" + bounds + ")";
+      add_finding(rep.findings, severity::warning, "phase_one_incomplete", run.message, {},
+                  rep.names);
+  }
+  rep.message = "undecided: " + why;
+  rep.callback_evaluations = probe.evaluations;
+  return rep;
 }
 
 }  // namespace qualify

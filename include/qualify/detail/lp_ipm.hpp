@@ -148,8 +148,10 @@ class dense_cholesky {
   /// With `pivot_floor`, pivots are instead raised to at least pivot_floor[j]: for
   /// G = F + B with F diagonal and B positive semidefinite every exact pivot is >= F_jj,
   /// so nothing is dropped and rounding cannot make a pivot vanish.
+  /// M's storage is swapped with the previous factor's, so that a caller passing the same
+  /// matrix each time reuses memory instead of faulting in fresh pages.
   void compute(Eigen::MatrixXd&& M, const Eigen::VectorXd* pivot_floor = nullptr) {
-    L_ = std::move(M);
+    L_.swap(M);
     const Eigen::Index m = L_.rows(), nb = 64;
     Eigen::VectorXd diag = L_.diagonal();
     dropped_ = 0;
@@ -183,6 +185,11 @@ class dense_cholesky {
     L_.triangularView<Eigen::Lower>().transpose().solveInPlace(x);
     return x;
   }
+  /// X := L^-1 X (M = L L^T).
+  template <class Derived>
+  void lower_solve_in_place(Eigen::MatrixBase<Derived>& X) const {
+    L_.triangularView<Eigen::Lower>().solveInPlace(X);
+  }
 
  private:
   Eigen::MatrixXd L_;
@@ -196,25 +203,62 @@ class normal_equations {
   normal_equations(const lp_sparse& A, Eigen::Index n_struct, bool dense)
       : A_(A), n_struct_(n_struct), dense_(dense) {
     if (dense_) {
-      Ad_ = Eigen::MatrixXd(A.leftCols(n_struct));
+      // A column that is the negative of its left neighbour (the halves x+ and x- of a free
+      // variable) adds a a^T (d_k + d_k+1) to A D A^T: the two share one dense column, which
+      // halves the normal matrix's work for free variables.
+      group_.resize(static_cast<std::size_t>(n_struct));
+      sign_.resize(static_cast<std::size_t>(n_struct));
+      std::vector<Eigen::Index> kept;
+      for (Eigen::Index k = 0; k < n_struct; ++k) {
+        const auto kk = static_cast<std::size_t>(k);
+        if (k > 0 && negated_neighbours(A, k - 1, k)) {
+          group_[kk] = group_[kk - 1];
+          sign_[kk] = -sign_[kk - 1];
+        } else {
+          group_[kk] = static_cast<Eigen::Index>(kept.size());
+          sign_[kk] = 1.0;
+          kept.push_back(k);
+        }
+      }
+      Ad_ = Eigen::MatrixXd::Zero(A.rows(), static_cast<Eigen::Index>(kept.size()));
+      for (std::size_t g = 0; g < kept.size(); ++g)
+        for (lp_sparse::InnerIterator it(A, kept[g]); it; ++it)
+          Ad_(it.row(), static_cast<Eigen::Index>(g)) = it.value();
       for (Eigen::Index k = n_struct; k < A.cols(); ++k)
         for (lp_sparse::InnerIterator it(A, k); it; ++it)
           slack_rows_.push_back({it.row(), it.value()});
       // More rows than columns: factor in the column space instead (see factor_columns).
       const Eigen::Index m = A.rows();
       const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
-      columns_ = n_struct > 0 && n_struct + (m - n_slack) < m;
+      columns_ = Ad_.cols() > 0 && Ad_.cols() + (m - n_slack) < m;
       if (columns_) {
         std::vector<bool> has_slack(static_cast<std::size_t>(m), false);
         for (auto [row, a] : slack_rows_) has_slack[static_cast<std::size_t>(row)] = true;
         for (Eigen::Index i = 0; i < m; ++i)
           if (!has_slack[static_cast<std::size_t>(i)]) equality_rows_.push_back(i);
-        AI_.resize(n_struct, n_slack);  // A_I^T, one column per slack's row
-        for (Eigen::Index k = 0; k < n_slack; ++k)
-          AI_.col(k) = Ad_.row(slack_rows_[static_cast<std::size_t>(k)].first).transpose();
-        AE_.resize(static_cast<Eigen::Index>(equality_rows_.size()), n_struct);
+        // A_I^T: rows with a slack and more than 8 entries are columns of AI_ (a dense rank
+        // update); rows with up to 8 entries (bounds moved to rows, singletons) are added by
+        // scatter, which costs their entry count squared instead of n^2.
+        sparse_start_.assign(1, 0);
+        for (Eigen::Index k = 0; k < n_slack; ++k) {
+          const Eigen::Index row = slack_rows_[static_cast<std::size_t>(k)].first;
+          if ((Ad_.row(row).array() != 0).count() > 8) {
+            dense_slacks_.push_back(k);
+            continue;
+          }
+          sparse_slacks_.push_back(k);
+          for (Eigen::Index j = 0; j < Ad_.cols(); ++j)
+            if (Ad_(row, j) != 0) sparse_entries_.push_back({j, Ad_(row, j)});
+          sparse_start_.push_back(sparse_entries_.size());
+        }
+        AI_.resize(Ad_.cols(), static_cast<Eigen::Index>(dense_slacks_.size()));
+        for (std::size_t k = 0; k < dense_slacks_.size(); ++k)
+          AI_.col(static_cast<Eigen::Index>(k)) =
+              Ad_.row(slack_rows_[static_cast<std::size_t>(dense_slacks_[k])].first).transpose();
+        AI2_ = AI_.cwiseAbs2();
+        AEq_.resize(static_cast<Eigen::Index>(equality_rows_.size()), Ad_.cols());
         for (std::size_t e = 0; e < equality_rows_.size(); ++e)
-          AE_.row(static_cast<Eigen::Index>(e)) = Ad_.row(equality_rows_[e]);
+          AEq_.row(static_cast<Eigen::Index>(e)) = Ad_.row(equality_rows_[e]);
       }
     }
   }
@@ -237,6 +281,11 @@ class normal_equations {
  private:
   bool factor_any(const Eigen::VectorXd& d, double delta) {
     d_ = d;
+    if (dense_) {
+      merged_ = Eigen::VectorXd::Zero(Ad_.cols());
+      for (Eigen::Index k = 0; k < n_struct_; ++k)
+        merged_[group_[static_cast<std::size_t>(k)]] += d[k];
+    }
     for (int attempt = 0; attempt < 6; ++attempt, delta *= 100) {
       delta_ = delta;
       if (columns_) {
@@ -244,8 +293,8 @@ class normal_equations {
       } else if (dense_) {
         const Eigen::Index m = Ad_.rows();
         Eigen::MatrixXd M = Eigen::MatrixXd::Zero(m, m);
-        Eigen::VectorXd root = d.head(n_struct_).cwiseSqrt();
-        if (n_struct_ > 0 && m > 0)
+        const Eigen::VectorXd root = merged_.cwiseSqrt();
+        if (Ad_.cols() > 0 && m > 0)
           M.selfadjointView<Eigen::Lower>().rankUpdate(Ad_ * root.asDiagonal());
         for (std::size_t k = 0; k < slack_rows_.size(); ++k) {
           auto [row, a] = slack_rows_[k];
@@ -304,30 +353,36 @@ class normal_equations {
   }
 
  public:
-  /// Solves M x = r with two steps of iterative refinement against the unshifted M.
-  /// The column-space factorisation loses accuracy once many rows are active (Theta_I^-1
-  /// huge); when its refined residual exceeds 1e-8 relative, the rest of the solve uses
-  /// the m x m factorisation, which drops dependent rows instead.
+  /// Solves M x = r, refined against the unshifted M while the residual is above 1e-10
+  /// relative and falls by half or more per step (at most 6 steps). The column-space
+  /// factorisation loses accuracy once many rows are active (Theta_I^-1 huge); when its
+  /// refined residual exceeds 1e-8 relative, the rest of the solve uses the m x m
+  /// factorisation, which drops dependent rows instead.
   Eigen::VectorXd solve(const Eigen::VectorXd& r) {
     Eigen::VectorXd x = raw_solve(r);
-    Eigen::VectorXd res;
-    for (int k = 0; k < 2; ++k) {
-      res = r - apply(x);
-      x += raw_solve(res);
+    Eigen::VectorXd res = r - apply(x);
+    double norm = res.lpNorm<Eigen::Infinity>();
+    const double scale = r.lpNorm<Eigen::Infinity>() + (r - res).lpNorm<Eigen::Infinity>();
+    for (int k = 0; k < 6 && norm > 1e-10 * scale; ++k) {
+      Eigen::VectorXd trial = x + raw_solve(res);
+      Eigen::VectorXd trial_res = r - apply(trial);
+      const double trial_norm = trial_res.lpNorm<Eigen::Infinity>();
+      if (!(trial_norm < norm)) break;
+      const bool slow = trial_norm > 0.5 * norm;
+      x = std::move(trial);
+      res = std::move(trial_res);
+      norm = trial_norm;
+      if (slow) break;
     }
-    if (columns_ || !dense_cols_.empty()) {
-      res = r - apply(x);
-      const double scale = r.lpNorm<Eigen::Infinity>() + (r - res).lpNorm<Eigen::Infinity>();
-      if (res.lpNorm<Eigen::Infinity>() > 1e-8 * scale) {
-        if (!dense_cols_.empty()) {  // back to the plain normal matrix
-          allow_dense_columns_ = false;
-          analysed_ = false;
-        }
-        columns_ = false;
-        if (!factor(d_, delta_))
-          return Eigen::VectorXd::Constant(r.size(), std::numeric_limits<double>::quiet_NaN());
-        return solve(r);
+    if ((columns_ || !dense_cols_.empty()) && norm > 1e-8 * scale) {
+      if (!dense_cols_.empty()) {  // back to the plain normal matrix
+        allow_dense_columns_ = false;
+        analysed_ = false;
       }
+      columns_ = false;
+      if (!factor(d_, delta_))
+        return Eigen::VectorXd::Constant(r.size(), std::numeric_limits<double>::quiet_NaN());
+      return solve(r);
     }
     return x;
   }
@@ -340,13 +395,100 @@ class normal_equations {
     return dense_ || dense_factor_ ? "dense_cholesky_rows" : "sparse_ldlt";
   }
 
+  /// M y, without the shift delta.
   Eigen::VectorXd apply(const Eigen::VectorXd& y) const {
+    if (dense_) {
+      Eigen::VectorXd out = dense_times(merged_.cwiseProduct(dense_transpose_times(y)));
+      for (std::size_t k = 0; k < slack_rows_.size(); ++k) {
+        const auto [row, a] = slack_rows_[k];
+        out[row] += a * a * d_[n_struct_ + static_cast<Eigen::Index>(k)] * y[row];
+      }
+      return out;
+    }
     Eigen::VectorXd t = A_.transpose() * y;
     t.array() *= d_.array();
     return A_ * t;
   }
 
+  /// A x and A^T y, by the dense copy in dense mode (a dense product streams memory; a
+  /// sparse one on a dense matrix is several times slower).
+  Eigen::VectorXd times(const Eigen::VectorXd& x) const {
+    if (!dense_) return A_ * x;
+    Eigen::VectorXd xg = Eigen::VectorXd::Zero(Ad_.cols());
+    for (Eigen::Index k = 0; k < n_struct_; ++k)
+      xg[group_[static_cast<std::size_t>(k)]] += sign_[static_cast<std::size_t>(k)] * x[k];
+    Eigen::VectorXd out = dense_times(xg);
+    for (std::size_t k = 0; k < slack_rows_.size(); ++k) {
+      const auto [row, a] = slack_rows_[k];
+      out[row] += a * x[n_struct_ + static_cast<Eigen::Index>(k)];
+    }
+    return out;
+  }
+  Eigen::VectorXd transpose_times(const Eigen::VectorXd& y) const {
+    if (!dense_) return A_.transpose() * y;
+    const Eigen::VectorXd t = dense_transpose_times(y);
+    Eigen::VectorXd out(A_.cols());
+    for (Eigen::Index k = 0; k < n_struct_; ++k)
+      out[k] = sign_[static_cast<std::size_t>(k)] * t[group_[static_cast<std::size_t>(k)]];
+    for (std::size_t k = 0; k < slack_rows_.size(); ++k) {
+      const auto [row, a] = slack_rows_[k];
+      out[n_struct_ + static_cast<Eigen::Index>(k)] = a * y[row];
+    }
+    return out;
+  }
+
  private:
+  // Ad_ v and Ad_^T y; with the column-space layout, from its blocks (the rows with at most
+  // 8 entries cost their entries only).
+  Eigen::VectorXd dense_times(const Eigen::VectorXd& v) const {
+    if (AI_.size() == 0 && sparse_slacks_.empty()) return Ad_ * v;
+    Eigen::VectorXd out = Eigen::VectorXd::Zero(Ad_.rows());
+    const Eigen::VectorXd dense_part = AI_.transpose() * v;
+    for (std::size_t k = 0; k < dense_slacks_.size(); ++k)
+      out[slack_rows_[static_cast<std::size_t>(dense_slacks_[k])].first] =
+          dense_part[static_cast<Eigen::Index>(k)];
+    for (std::size_t q = 0; q < sparse_slacks_.size(); ++q) {
+      double sum = 0;
+      for (std::size_t a = sparse_start_[q]; a < sparse_start_[q + 1]; ++a)
+        sum += sparse_entries_[a].second * v[sparse_entries_[a].first];
+      out[slack_rows_[static_cast<std::size_t>(sparse_slacks_[q])].first] = sum;
+    }
+    if (AEq_.rows() > 0) {
+      const Eigen::VectorXd equality_part = AEq_ * v;
+      for (std::size_t e = 0; e < equality_rows_.size(); ++e)
+        out[equality_rows_[e]] = equality_part[static_cast<Eigen::Index>(e)];
+    }
+    return out;
+  }
+  Eigen::VectorXd dense_transpose_times(const Eigen::VectorXd& y) const {
+    if (AI_.size() == 0 && sparse_slacks_.empty()) return Ad_.transpose() * y;
+    Eigen::VectorXd yd(AI_.cols());
+    for (std::size_t k = 0; k < dense_slacks_.size(); ++k)
+      yd[static_cast<Eigen::Index>(k)] =
+          y[slack_rows_[static_cast<std::size_t>(dense_slacks_[k])].first];
+    Eigen::VectorXd out = AI_ * yd;
+    for (std::size_t q = 0; q < sparse_slacks_.size(); ++q) {
+      const double yq = y[slack_rows_[static_cast<std::size_t>(sparse_slacks_[q])].first];
+      for (std::size_t a = sparse_start_[q]; a < sparse_start_[q + 1]; ++a)
+        out[sparse_entries_[a].first] += sparse_entries_[a].second * yq;
+    }
+    if (AEq_.rows() > 0) {
+      Eigen::VectorXd ye(AEq_.rows());
+      for (std::size_t e = 0; e < equality_rows_.size(); ++e)
+        ye[static_cast<Eigen::Index>(e)] = y[equality_rows_[e]];
+      out += AEq_.transpose() * ye;
+    }
+    return out;
+  }
+
+  // True when column k2 of A is exactly minus column k1 (same rows, negated values).
+  static bool negated_neighbours(const lp_sparse& A, Eigen::Index k1, Eigen::Index k2) {
+    lp_sparse::InnerIterator a(A, k1), b(A, k2);
+    for (; a && b; ++a, ++b)
+      if (a.row() != b.row() || a.value() != -b.value()) return false;
+    return !a && !b && A.col(k1).nonZeros() > 0;
+  }
+
   // Chooses the sparse method once: columns with more than max(40, 10 x average) entries
   // (at most m / 10 of them) are dense columns, kept out of the pattern (Andersen,
   // Roos, Terlaky, Trafalis and Warners, "The use of low-rank updates in interior-point
@@ -402,31 +544,67 @@ class normal_equations {
     }
   }
 
-  // With rows I that have a slack (M's diagonal gains theta_i = a^2 d_slack) and rows E
-  // that have none, and K = diag(d_struct):
-  //   M = A K A^T + diag(theta_I, 0) + delta I.
-  // Eliminating u = K A^T y gives G = K^-1 + A_I^T Theta_I^-1 A_I (n x n) and the Schur
-  // complement S = A_E G^-1 A_E^T + delta I on the equality rows; see raw_solve. This
-  // costs n^2 m instead of m^2 n + m^3 / 3 when m > n (MFCQ LPs with many active rows).
+  // With K = diag(d summed over each group) and theta_i = a^2 d_slack on rows with a slack
+  // (0 on equality rows), M = A K A^T + diag(theta) + delta I. Rows split into I (slack rows
+  // whose theta is not small) and E (equality rows, and slack rows with theta_i < 1e-4 times
+  // their structural diagonal (A K A^T)_ii: nearly active rows, whose theta^-1 would be huge
+  // and cancel). Eliminating u = K A^T y gives G = K^-1 + A_I^T Theta_I^-1 A_I (n x n) and
+  // the Schur complement S = A_E G^-1 A_E^T + Theta_E + delta I on E; see raw_solve. This
+  // costs n^2 m + |E|^2 n instead of m^2 n + m^3 / 3 when m > n (phase-one and MFCQ LPs).
   bool factor_columns(const Eigen::VectorXd& d, double delta) {
     const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
-    theta_inv_.resize(n_slack);
-    for (Eigen::Index k = 0; k < n_slack; ++k) {
-      const double a = slack_rows_[static_cast<std::size_t>(k)].second;
-      theta_inv_[k] = 1.0 / (a * a * d[n_struct_ + k] + delta);
+    const Eigen::Index n = Ad_.cols();
+    Eigen::VectorXd structural(n_slack);
+    Eigen::MatrixXd& G = work_;
+    structural(dense_slacks_) = AI2_.transpose() * merged_;
+    for (std::size_t q = 0; q < sparse_slacks_.size(); ++q) {
+      double sum = 0;
+      for (std::size_t a = sparse_start_[q]; a < sparse_start_[q + 1]; ++a)
+        sum += sparse_entries_[a].second * sparse_entries_[a].second *
+               merged_[sparse_entries_[a].first];
+      structural[sparse_slacks_[q]] = sum;
     }
-    Eigen::MatrixXd G = Eigen::MatrixXd::Zero(n_struct_, n_struct_);
-    G.selfadjointView<Eigen::Lower>().rankUpdate(AI_ * theta_inv_.cwiseSqrt().asDiagonal());
-    const Eigen::VectorXd kinv = d.head(n_struct_).cwiseInverse();
+    theta_inv_.resize(n_slack);
+    schur_rows_ = equality_rows_;
+    std::vector<double> schur_theta(equality_rows_.size(), delta);
+    for (Eigen::Index k = 0; k < n_slack; ++k) {
+      const auto [row, a] = slack_rows_[static_cast<std::size_t>(k)];
+      const double theta = a * a * d[n_struct_ + k];
+      const bool nearly_active = theta < 1e-4 * structural[k];
+      theta_inv_[k] = nearly_active ? 0.0 : 1.0 / (theta + delta);
+      if (nearly_active) {
+        schur_rows_.push_back(row);
+        schur_theta.push_back(theta + delta);
+      }
+    }
+    G.setZero(n, n);
+    scaled_ = AI_ * theta_inv_(dense_slacks_).cwiseSqrt().asDiagonal();
+    G.selfadjointView<Eigen::Lower>().rankUpdate(scaled_);
+    for (std::size_t q = 0; q < sparse_slacks_.size(); ++q) {  // lower triangle, by scatter
+      const double t = theta_inv_[sparse_slacks_[q]];
+      if (t == 0) continue;
+      for (std::size_t a = sparse_start_[q]; a < sparse_start_[q + 1]; ++a)
+        for (std::size_t b = sparse_start_[q]; b < sparse_start_[q + 1]; ++b) {
+          const auto [i, vi] = sparse_entries_[a];
+          const auto [j, vj] = sparse_entries_[b];
+          if (i >= j) G(i, j) += t * vi * vj;
+        }
+    }
+    const Eigen::VectorXd kinv = merged_.cwiseInverse();
     G.diagonal() += kinv;
     chol_.compute(std::move(G), &kinv);
     if (!chol_.ok()) return false;
-    if (AE_.rows() == 0) return true;
-    GinvAEt_.resize(n_struct_, AE_.rows());
-    for (Eigen::Index e = 0; e < AE_.rows(); ++e)
-      GinvAEt_.col(e) = chol_.solve(AE_.row(e).transpose());
-    Eigen::MatrixXd S = AE_ * GinvAEt_;
-    S.diagonal().array() += delta;
+    const auto k = static_cast<Eigen::Index>(schur_rows_.size());
+    if (k == 0) return true;
+    // W = L^-1 A_E^T (G = L L^T), so that S = W^T W + Theta_E.
+    W_E_.resize(n, k);
+    for (Eigen::Index e = 0; e < k; ++e)
+      W_E_.col(e) = Ad_.row(schur_rows_[static_cast<std::size_t>(e)]).transpose();
+    AE_ = W_E_;
+    chol_.lower_solve_in_place(W_E_);
+    Eigen::MatrixXd S = Eigen::MatrixXd::Zero(k, k);
+    S.selfadjointView<Eigen::Lower>().rankUpdate(W_E_.transpose());
+    S.diagonal() += Eigen::Map<const Eigen::VectorXd>(schur_theta.data(), k);
     schur_.compute(std::move(S));
     return schur_.ok();
   }
@@ -434,31 +612,41 @@ class normal_equations {
   Eigen::VectorXd raw_solve(const Eigen::VectorXd& r) const {
     if (columns_) {
       // h = A_I^T Theta_I^-1 r_I; y_E = S^-1 (r_E - A_E G^-1 h); u = G^-1 (h + A_E^T y_E);
-      // y_I = Theta_I^-1 (r_I - A_I u).
+      // y_I = Theta_I^-1 (r_I - A_I u). Rows of E have theta_inv_ = 0.
       const auto n_slack = static_cast<Eigen::Index>(slack_rows_.size());
       Eigen::VectorXd rI(n_slack);
       for (Eigen::Index k = 0; k < n_slack; ++k)
         rI[k] = r[slack_rows_[static_cast<std::size_t>(k)].first];
-      Eigen::VectorXd h = AI_ * theta_inv_.cwiseProduct(rI);
+      const Eigen::VectorXd trI = theta_inv_.cwiseProduct(rI);
+      Eigen::VectorXd h = AI_ * trI(dense_slacks_);
+      for (std::size_t q = 0; q < sparse_slacks_.size(); ++q)
+        for (std::size_t a = sparse_start_[q]; a < sparse_start_[q + 1]; ++a)
+          h[sparse_entries_[a].first] += sparse_entries_[a].second * trI[sparse_slacks_[q]];
       Eigen::VectorXd y = Eigen::VectorXd::Zero(r.size());
       Eigen::VectorXd u;
-      if (AE_.rows() > 0) {
-        Eigen::VectorXd rE(AE_.rows());
-        for (std::size_t e = 0; e < equality_rows_.size(); ++e)
-          rE[static_cast<Eigen::Index>(e)] = r[equality_rows_[e]];
-        Eigen::VectorXd yE = schur_.solve(rE - GinvAEt_.transpose() * h);
-        u = chol_.solve(h + AE_.transpose() * yE);
-        for (std::size_t e = 0; e < equality_rows_.size(); ++e)
-          y[equality_rows_[e]] = yE[static_cast<Eigen::Index>(e)];
+      const auto k = static_cast<Eigen::Index>(schur_rows_.size());
+      if (k > 0) {
+        Eigen::VectorXd rE(k);
+        for (Eigen::Index e = 0; e < k; ++e) rE[e] = r[schur_rows_[static_cast<std::size_t>(e)]];
+        Eigen::VectorXd z = h;
+        chol_.lower_solve_in_place(z);
+        const Eigen::VectorXd yE = schur_.solve(rE - W_E_.transpose() * z);
+        u = chol_.solve(h + AE_ * yE);
+        for (Eigen::Index e = 0; e < k; ++e) y[schur_rows_[static_cast<std::size_t>(e)]] = yE[e];
       } else {
         u = chol_.solve(h);
       }
-      Eigen::VectorXd AIu = AI_.transpose() * u;
-      for (Eigen::Index k = 0; k < n_slack; ++k) {
-        const auto [row, a] = slack_rows_[static_cast<std::size_t>(k)];
-        (void)a;
-        y[row] = theta_inv_[k] * (rI[k] - AIu[k]);
+      Eigen::VectorXd AIu(n_slack);
+      AIu(dense_slacks_) = AI_.transpose() * u;
+      for (std::size_t q = 0; q < sparse_slacks_.size(); ++q) {
+        double sum = 0;
+        for (std::size_t a = sparse_start_[q]; a < sparse_start_[q + 1]; ++a)
+          sum += sparse_entries_[a].second * u[sparse_entries_[a].first];
+        AIu[sparse_slacks_[q]] = sum;
       }
+      for (Eigen::Index j = 0; j < n_slack; ++j)
+        if (theta_inv_[j] != 0)
+          y[slack_rows_[static_cast<std::size_t>(j)].first] = theta_inv_[j] * (rI[j] - AIu[j]);
       return y;
     }
     if (dense_ || dense_factor_) return chol_.solve(r);
@@ -470,15 +658,24 @@ class normal_equations {
   const lp_sparse& A_;
   Eigen::Index n_struct_;
   bool dense_;
-  Eigen::MatrixXd Ad_;
+  Eigen::MatrixXd Ad_;               // dense mode: one column per group of structural columns
+  std::vector<Eigen::Index> group_;  // structural column -> its column of Ad_
+  std::vector<double> sign_;         // structural column = sign * that column
+  Eigen::VectorXd merged_;           // d summed over each group
   std::vector<std::pair<Eigen::Index, double>> slack_rows_;
   Eigen::VectorXd d_;
   double delta_ = 0;
   dense_cholesky chol_;
-  // Column-space factorisation (columns_): A_I^T, A_E, Theta_I^-1, G^-1 A_E^T, S.
+  // Column-space factorisation (columns_): see factor_columns.
   bool columns_ = false;
   std::vector<Eigen::Index> equality_rows_;
-  Eigen::MatrixXd AI_, AE_, GinvAEt_;
+  Eigen::MatrixXd AI_, AI2_, AEq_;        // A_I^T (dense slack rows), its squares, equality rows
+  std::vector<Eigen::Index> schur_rows_;  // E: equality rows, then nearly active slack rows
+  Eigen::MatrixXd AE_, W_E_;              // A_E^T and L^-1 A_E^T
+  Eigen::MatrixXd work_, scaled_;         // G and A_I^T Theta_I^-1/2, kept to reuse memory
+  std::vector<Eigen::Index> dense_slacks_, sparse_slacks_;  // slacks by their row's entries
+  std::vector<std::size_t> sparse_start_;  // entries of sparse_slacks_[q]: [start_q, start_q+1)
+  std::vector<std::pair<Eigen::Index, double>> sparse_entries_;  // (column of Ad_, value)
   Eigen::VectorXd theta_inv_;
   dense_cholesky schur_;
   Eigen::SimplicialLDLT<lp_sparse, Eigen::Lower, Eigen::AMDOrdering<Eigen::Index>> ldlt_;
@@ -521,7 +718,6 @@ class hsd_solver {
   ipm_result solve(const std::function<bool(const ipm_result&)>& accept_ray) {
     using Eigen::VectorXd;
     const Eigen::Index N = p_.A.cols(), m = p_.A.rows();
-    const auto& A = p_.A;
     const auto& b = p_.b;
     const auto& c = p_.c;
     VectorXd x = VectorXd::Ones(N), s = VectorXd::Ones(N), w = boxed_, v = boxed_;
@@ -537,9 +733,9 @@ class hsd_solver {
     for (int iter = 0;; ++iter) {
       r.iterations = iter;
       // Residuals F of the homogeneous model.
-      VectorXd F1 = A * x - b * tau;
+      VectorXd F1 = ne_.times(x) - b * tau;
       VectorXd F2 = (x + w - ub_ * tau).cwiseProduct(boxed_);
-      VectorXd Aty = A.transpose() * y;
+      VectorXd Aty = ne_.transpose_times(y);
       VectorXd F3 = Aty - v + s - c * tau;
       const double cx = c.dot(x), by = b.dot(y) - ub_.dot(v);
       const double F4 = -cx + by - kappa;
@@ -580,7 +776,7 @@ class hsd_solver {
           r.x = x;
           if (accept_ray(r)) return r;
         }
-        const double primal_ray = std::max((A * x).lpNorm<Eigen::Infinity>(),
+        const double primal_ray = std::max(ne_.times(x).lpNorm<Eigen::Infinity>(),
                                            (x + w).cwiseProduct(boxed_).lpNorm<Eigen::Infinity>());
         if (cx < 0 && primal_ray <= set_.infeasibility_tolerance * -cx) {
           r.status = ipm_status::dual_infeasible;
@@ -616,8 +812,8 @@ class hsd_solver {
         r.y = y / tau;
         return r;
       }
-      VectorXd q = ne_.solve(b + A * Dinv.cwiseProduct(c - g));
-      VectorXd xq = Dinv.cwiseProduct(A.transpose() * q + g - c);
+      VectorXd q = ne_.solve(b + ne_.times(Dinv.cwiseProduct(c - g)));
+      VectorXd xq = Dinv.cwiseProduct(ne_.transpose_times(q) + g - c);
       const double den = -(c + g).dot(xq) + b.dot(q) +
                          ub_.cwiseProduct(ub_).dot(v.cwiseProduct(winv)) + kappa / tau;
 
@@ -630,8 +826,8 @@ class hsd_solver {
         VectorXd R2 = -eta * F2;
         VectorXd R3 = -eta * F3;
         VectorXd h = R3 - R5.cwiseQuotient(x) + (R6 - v.cwiseProduct(R2)).cwiseProduct(winv);
-        VectorXd p = ne_.solve(-eta * F1 + A * Dinv.cwiseProduct(h));
-        VectorXd xp = Dinv.cwiseProduct(A.transpose() * p - h);
+        VectorXd p = ne_.solve(-eta * F1 + ne_.times(Dinv.cwiseProduct(h)));
+        VectorXd xp = Dinv.cwiseProduct(ne_.transpose_times(p) - h);
         const double num = -eta * F4 + ub_.dot((R6 - v.cwiseProduct(R2)).cwiseProduct(winv)) +
                            R7 / tau + (c + g).dot(xp) - b.dot(p);
         d.dtau = num / den;
