@@ -14,15 +14,15 @@
 //         returns the rank estimate (the least a rank decision with named rows needs).
 // Each measurement runs in a child process of its own, so that its peak resident memory
 // (getrusage of the child) is its own: the figure printed is the peak minus the resident size
-// after the input was built. Times are the best of 3 runs in that child (Netlib: the sum over
-// the models of each model's best of 5): wall-clock time, and the process's CPU time (user +
-// system) of the same run, which a machine shared with other work disturbs less.
+// after the input was built. Times are best_of (benchmarks/timing.hpp: the fastest of up to 5
+// runs within about a second) in that child (Netlib: the sum over the models of each model's
+// best_of): wall-clock time, and the process's CPU time (user + system) of the same run, which a
+// machine shared with other work disturbs less.
 #include <sys/resource.h>
 #include <sys/wait.h>
 #include <time.h>
 #include <unistd.h>
 
-#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -37,6 +37,7 @@
 
 #include "netlib_index.hpp"
 #include "sparse_cases.hpp"
+#include "timing.hpp"
 
 #if !defined(QUALIFY_WITH_SPQR)
 #error "sparse_licq_bench compares against SPQR: configure with QUALIFY_WITH_SPQR=ON"
@@ -87,9 +88,19 @@ struct result {
   char method[32] = {};
 };
 
-/// Runs work(input) (returning a result without the time) in a child, best of `runs`.
+/// work(input) with its process CPU time, for best_of (the time is best_of's).
+template <class Work, class Input>
+result timed(Work&& work, const Input& input) {
+  const double cpu_start = cpu_seconds();
+  result r = work(input);
+  r.cpu = cpu_seconds() - cpu_start;
+  return r;
+}
+
+/// Builds the input and runs best_of(work(input)) in a child process, so that the peak
+/// resident memory the parent reads from wait4 is that child's own.
 template <class Build, class Work>
-result in_child(Build&& build, Work&& work, int runs = 3) {
+result in_child(Build&& build, Work&& work) {
   int fd[2];
   if (pipe(fd) != 0) std::exit(1);
   std::fflush(stdout);
@@ -97,23 +108,9 @@ result in_child(Build&& build, Work&& work, int runs = 3) {
   if (pid == 0) {
     close(fd[0]);
     auto input = build();
-    result out;
-    out.baseline_mib = resident_mib();
-    out.seconds = std::numeric_limits<double>::infinity();
-    for (int run = 0; run < runs; ++run) {
-      const auto start = std::chrono::steady_clock::now();
-      const double cpu_start = cpu_seconds();
-      result r = work(input);
-      const double cpu = cpu_seconds() - cpu_start;
-      const std::chrono::duration<double> took = std::chrono::steady_clock::now() - start;
-      if (took.count() < out.seconds) {
-        const double base = out.baseline_mib;
-        out = r;
-        out.baseline_mib = base;
-        out.seconds = took.count();
-        out.cpu = cpu;
-      }
-    }
+    const double baseline = resident_mib();
+    result out = qualify_bench::best_of([&] { return timed(work, input); });
+    out.baseline_mib = baseline;
     if (write(fd[1], &out, sizeof out) != ssize_t(sizeof out)) _exit(1);
     _exit(0);
   }
@@ -179,27 +176,16 @@ std::vector<csr> netlib_blocks(const std::string& dir) {
   return blocks;
 }
 
-/// Sum over the blocks of each block's best time of 5 (ours or the peer's).
+/// Sum over the blocks of each block's best time (ours or the peer's), run as one piece of
+/// work in a child (its own best_of then runs it once: the sum takes more than a second).
 template <class Input, class Work>
 result netlib_total(const std::vector<Input>& inputs, Work&& work) {
   result total;
   for (const auto& input : inputs) {
-    double best = std::numeric_limits<double>::infinity();
-    double best_cpu = 0;
-    for (int run = 0; run < 5; ++run) {
-      const auto start = std::chrono::steady_clock::now();
-      const double cpu_start = cpu_seconds();
-      const result r = work(input);
-      const double cpu = cpu_seconds() - cpu_start;
-      const std::chrono::duration<double> took = std::chrono::steady_clock::now() - start;
-      if (took.count() < best) {
-        best = took.count();
-        best_cpu = cpu;
-      }
-      if (run == 0) total.dependent += r.dependent;
-    }
-    total.seconds += best;
-    total.cpu += best_cpu;
+    const result r = qualify_bench::best_of([&] { return timed(work, input); });
+    total.seconds += r.seconds;
+    total.cpu += r.cpu;
+    total.dependent += r.dependent;
     ++total.models;
   }
   return total;
@@ -251,14 +237,14 @@ int main(int argc, char** argv) {
   const auto all_peer = [](const std::vector<csc>& blocks) {
     return netlib_total(blocks, bare_spqr);
   };
-  const result mine = in_child([&] { return netlib_blocks(netlib); }, all_ours, 1);
+  const result mine = in_child([&] { return netlib_blocks(netlib); }, all_ours);
   const result peer = in_child(
       [&] {
         std::vector<csc> unit;
         for (const csr& b : netlib_blocks(netlib)) unit.push_back(unit_transpose(b));
         return unit;
       },
-      all_peer, 1);
+      all_peer);
   const double ours_mib = mine.peak_mib - mine.baseline_mib;
   const double peer_mib = peer.peak_mib - peer.baseline_mib;
   std::printf(
