@@ -12,6 +12,7 @@
 #include <random>
 
 #include "reference.hpp"
+#include "sparse_cases.hpp"
 
 using namespace qualify;
 using Eigen::MatrixXd;
@@ -26,10 +27,21 @@ bool has_code(const mfcq_report& r, const std::string& code) {
                      [&](const finding& f) { return f.code == code; });
 }
 
+using sparse_rows = Eigen::SparseMatrix<double, Eigen::RowMajor>;
+using qualify_test::normalise_rows;
+
+/// Each row divided by its 2-norm (zero rows stay zero), for sparse rows.
+sparse_rows normalise_rows(const sparse_rows& a) {
+  sparse_rows out = a;
+  for (Index i = 0; i < a.rows(); ++i)
+    if (a.row(i).norm() > 0) out.row(i) /= a.row(i).norm();
+  return out;
+}
+
 /// t* of max t s.t. A_unit d + t 1 <= 0, E_unit d = 0, -1 <= d <= 1, t <= 1 (DESIGN.md,
 /// section 2) by GLPK's simplex (Debian's libglpk), an independent LP code.
-double glpk_margin(const MatrixXd& a, const MatrixXd& e) {
-  const MatrixXd au = normalise_rows(a), eu = normalise_rows(e);
+double glpk_margin(const sparse_rows& a, const sparse_rows& e) {
+  const sparse_rows au = normalise_rows(a), eu = normalise_rows(e);
   const int ma = int(a.rows()), me = int(e.rows()), n = int(a.cols());
   glp_prob* lp = glp_create_prob();
   glp_set_obj_dir(lp, GLP_MAX);
@@ -49,11 +61,12 @@ double glpk_margin(const MatrixXd& a, const MatrixXd& e) {
     ar.push_back(v);
   };
   for (int i = 0; i < ma; ++i) {
-    for (int k = 0; k < n; ++k) put(i + 1, k + 1, au(i, k));
+    for (sparse_rows::InnerIterator it(au, i); it; ++it) put(i + 1, int(it.col()) + 1, it.value());
     put(i + 1, n + 1, 1);
   }
   for (int j = 0; j < me; ++j)
-    for (int k = 0; k < n; ++k) put(ma + j + 1, k + 1, eu(j, k));
+    for (sparse_rows::InnerIterator it(eu, j); it; ++it)
+      put(ma + j + 1, int(it.col()) + 1, it.value());
   glp_load_matrix(lp, int(ar.size()) - 1, ia.data(), ja.data(), ar.data());
   glp_smcp parm;
   glp_init_smcp(&parm);
@@ -65,14 +78,20 @@ double glpk_margin(const MatrixXd& a, const MatrixXd& e) {
   return t;
 }
 
+double glpk_margin(const MatrixXd& a, const MatrixXd& e) {
+  return glpk_margin(sparse_rows(a.sparseView(0.0, 0.0)), sparse_rows(e.sparseView(0.0, 0.0)));
+}
+
 /// What a report claims, checked on the data here: a holding verdict's direction decreases
 /// every inequality and keeps the equalities; a certificate is a positive dependence.
-void check_claims(const mfcq_report& r, const MatrixXd& a, const MatrixXd& e) {
+template <class Matrix>
+void check_claims(const mfcq_report& r, const Matrix& a, const Matrix& e) {
   if (r.result == verdict::holds && a.rows() > 0) {
     REQUIRE(r.direction.size() == a.cols());
-    CHECK((a * r.direction).maxCoeff() < 0);
+    CHECK(VectorXd(a * r.direction).maxCoeff() < 0);
     CHECK(r.direction.lpNorm<Eigen::Infinity>() == doctest::Approx(1.0));
-    if (e.rows() > 0) CHECK((normalise_rows(e) * r.direction).lpNorm<Eigen::Infinity>() <= 1e-12);
+    if (e.rows() > 0)
+      CHECK(VectorXd(normalise_rows(e) * r.direction).lpNorm<Eigen::Infinity>() <= 1e-12);
   }
   if (r.certificate.kind == mfcq_certificate_kind::positive_dependence) {
     const auto& c = r.certificate;
@@ -376,4 +395,188 @@ TEST_CASE("larger cases: 300 active rows, 20 equalities, 150 variables agree wit
       CHECK(std::find(rep.certificate.ineq_rows.begin(), rep.certificate.ineq_rows.end(), i) !=
             rep.certificate.ineq_rows.end());
   }
+}
+
+// ---- sparse gradients ----------------------------------------------------------------------
+
+namespace {
+
+sparse_rows sparse_of(const MatrixXd& m) { return m.sparseView(0.0, 0.0); }
+
+/// The sparse check on the same gradients as a dense report: the same verdict, t*, ranks and
+/// certificate (kind and rows), with the sparse report's own claims checked on the data. The
+/// LP may have many optimal directions and multipliers (t* at its cap of 1, several positive
+/// dependences), so those are compared only where they are unique: lambda of a dependence
+/// between two rows.
+void check_sparse_agrees(const mfcq_report& dense, const MatrixXd& a, const MatrixXd& e,
+                         const mfcq_options& options = {}) {
+  const sparse_rows sa = sparse_of(a), se = sparse_of(e);
+  const auto rep = check_mfcq(sa, se, options);
+  CAPTURE(fmt::format("{:f}", rep));
+  CHECK(rep.result == dense.result);
+  CHECK(std::abs(rep.margin - dense.margin) <= 1e-7);
+  CHECK(rep.lp == dense.lp);
+  CHECK(rep.certificate.kind == dense.certificate.kind);
+  CHECK(rep.certificate.ineq_rows == dense.certificate.ineq_rows);
+  CHECK(rep.certificate.eq_rows == dense.certificate.eq_rows);
+  if (rep.certificate.kind == dense.certificate.kind &&
+      rep.certificate.kind != mfcq_certificate_kind::none) {
+    if (dense.certificate.ineq_rows.size() == 2 && dense.certificate.eq_rows.empty())
+      CHECK((rep.certificate.lambda - dense.certificate.lambda).lpNorm<Eigen::Infinity>() <= 1e-6);
+    CHECK(rep.certificate.residual <= std::max(1e-9, 10 * dense.certificate.residual));
+  }
+  if (rep.result == verdict::holds) CHECK(rep.direction_margin >= 10 * rep.relative_threshold);
+  CHECK(rep.equality_licq.has_value() == dense.equality_licq.has_value());
+  if (rep.equality_licq && dense.equality_licq) {
+    CHECK(rep.equality_licq->result == dense.equality_licq->result);
+    CHECK(rep.equality_licq->rank == dense.equality_licq->rank);
+  }
+  REQUIRE(rep.licq);
+  CHECK(rep.licq->result == dense.licq->result);
+  check_claims(rep, sa, se);
+}
+
+}  // namespace
+
+TEST_CASE("sparse gradients: the published examples give the dense verdicts and certificates") {
+  // The cases above, stored sparse: complementarity (Scheel and Scholtes 2000) at (0, 0) and
+  // (1, 0), the Kuhn-Tucker (1951) cusp, three lines through a point, a duplicated equality.
+  MatrixXd comp0(3, 2), comp1(2, 2), lines(3, 2), a1(1, 3), e2(2, 3);
+  comp0 << -1, 0, 0, -1, 0, 0;
+  comp1 << 0, -1, 0, 1;
+  lines << -1, 0, 0, -1, -1, -1;
+  a1 << 1, 0, 0;
+  e2 << 0, 1, 1, 0, 1, 1;
+  for (const MatrixXd* a : {&comp0, &comp1, &lines}) {
+    const MatrixXd none(0, a->cols());
+    check_sparse_agrees(check_mfcq(*a, none), *a, none);
+  }
+  check_sparse_agrees(check_mfcq(a1, e2), a1, e2);
+  const auto cusp = check_mfcq(sparse_of(comp1), mfcq_options{}, {"cusp", "floor"});
+  QUALIFY_CHECK_FAILS(cusp);
+  CHECK(cusp.certificate.lambda(0) == doctest::Approx(0.5).epsilon(1e-9));  // hand-checked
+  const auto dup = check_mfcq(sparse_of(a1), sparse_of(e2), {}, {"g", "h", "h_again"});
+  CHECK(has_code(dup, "equality_rank_deficient"));
+  CHECK(has_code(dup, "duplicate_rows"));
+  CHECK(dup.certificate.kind == mfcq_certificate_kind::equality_dependence);
+  CHECK(dup.margin == doctest::Approx(glpk_margin(a1, e2)).epsilon(1e-7));  // GLPK
+}
+
+TEST_CASE("sparse gradients agree with the dense check and GLPK on seeded random cases") {
+  std::mt19937 rng(5150);
+  std::uniform_real_distribution<double> unit(0, 1);
+  int held = 0, failed = 0;
+  for (int trial = 0; trial < 40; ++trial) {
+    const Index n = 4 + trial % 12;
+    const Index me = trial % 3 == 0 ? 0 : std::min<Index>(n - 1, 1 + trial % 3);
+    const Index ma = 2 + trial % 5 + (trial % 4 == 0 ? n : 0);
+    MatrixXd a = gaussian(ma, n, rng), e = gaussian(me, n, rng);
+    for (Index i = 0; i < a.size(); ++i)  // about half the entries zero
+      if (unit(rng) < 0.5) a.data()[i] = 0;
+    for (Index i = 0; i < ma; ++i)
+      if (a.row(i).norm() == 0) a(i, i % n) = 1;
+    if (trial % 5 == 1) {  // positively dependent by construction, as in the dense test
+      a.row(ma - 1) = -(0.5 * a.row(0) + 2 * a.row(1));
+      if (me > 0) a.row(ma - 1) += e.row(0);
+    }
+    const auto dense = check_mfcq(a, e);
+    CAPTURE(trial);
+    CHECK(std::abs(dense.margin - glpk_margin(a, e)) <= 1e-7);  // GLPK simplex
+    check_sparse_agrees(dense, a, e);
+    held += dense.result == verdict::holds;
+    failed += dense.result == verdict::fails;
+  }
+  CHECK(held > 5);
+  CHECK(failed > 5);
+}
+
+TEST_CASE("sparse gradients: 300 active rows, 20 equalities, 150 variables as in the dense case") {
+  std::mt19937 rng(29);
+  const Index ma = 300, me = 20, n = 150;
+  const MatrixXd e = gaussian(me, n, rng);
+  MatrixXd a = gaussian(ma, n, rng);
+  VectorXd d0 = VectorXd::NullaryExpr(n, [&] { return std::normal_distribution<double>()(rng); });
+  d0 -= e.transpose() * (e * e.transpose()).ldlt().solve(e * d0);
+  for (Index i = 0; i < ma; ++i)
+    if (a.row(i).dot(d0) > 0) a.row(i) *= -1;
+  check_sparse_agrees(check_mfcq(a, e), a, e);
+  a.row(ma - 1) = -(a.row(3) + 2 * a.row(70) + 0.5 * a.row(200)) + gaussian(1, me, rng) * e;
+  check_sparse_agrees(check_mfcq(a, e), a, e);
+}
+
+TEST_CASE("banded optimal control: MFCQ on thousands of sparse rows, checked against GLPK") {
+  // E: the dynamics of qualify_test::banded_control (2000 stages: 8004 rows, 12004 variables).
+  // A: bounds u <= 1 active on the first control of every tenth stage (gradients e_u) and a
+  // state constraint active at stage 3. A direction exists: move the controls down and let
+  // the states follow the dynamics. Then an opposed copy of one active bound makes the pair
+  // positively dependent (a bound written twice with opposite signs, common practice, no
+  // source): MFCQ fails and the certificate names that pair.
+  std::mt19937 rng(99);
+  const Index nx = 4, nu = 2, stages = 2000, stride = nx + nu;
+  const auto oc = qualify_test::banded_control(stages, nx, nu, rng);
+  const sparse_rows e = oc.matrix<Eigen::RowMajor>();
+  std::vector<Eigen::Triplet<double>> bounds;
+  Index ma = 0;
+  for (Index k = 0; k < stages; k += 10) bounds.emplace_back(ma++, k * stride + nx, 1.0);
+  bounds.emplace_back(ma++, 3 * stride + 1, -1.0);
+  sparse_rows a(ma, e.cols());
+  a.setFromTriplets(bounds.begin(), bounds.end());
+  const auto holds = check_mfcq(a, e);
+  CAPTURE(fmt::format("{}", holds));
+  QUALIFY_CHECK_HOLDS(holds);
+  CHECK(std::abs(holds.margin - glpk_margin(a, e)) <= 1e-7);  // GLPK simplex
+  check_claims(holds, a, e);
+
+  bounds.emplace_back(ma++, 50 * stride + nx, -1.0);  // the bound of stage 50, opposed
+  a.resize(ma, e.cols());
+  a.setFromTriplets(bounds.begin(), bounds.end());
+  const auto fails = check_mfcq(a, e);
+  CAPTURE(fmt::format("{}", fails));
+  QUALIFY_CHECK_FAILS(fails);
+  CHECK(std::abs(fails.margin - glpk_margin(a, e)) <= 1e-7);  // GLPK simplex
+  CHECK(fails.certificate.ineq_rows == std::vector<Index>{5, ma - 1});
+  REQUIRE(fails.certificate.lambda.size() == ma);
+  CHECK(fails.certificate.lambda(5) == doctest::Approx(0.5).epsilon(1e-7));
+  check_claims(fails, a, e);
+}
+
+TEST_CASE("sparse gradients: bad input is an invalid_input report naming the problem") {
+  sparse_rows a(2, 3), e(1, 3);
+  a.insert(0, 0) = 1;
+  a.insert(1, 2) = std::numeric_limits<double>::quiet_NaN();
+  e.insert(0, 1) = 1;
+  auto rep = check_mfcq(a, e);
+  QUALIFY_CHECK_VERDICT(rep, verdict::invalid_input);
+  CHECK(rep.message.find("inequality Jacobian entry (1, 2) is NaN") != std::string::npos);
+  a.coeffRef(1, 2) = 1;
+  e.coeffRef(0, 0) = -std::numeric_limits<double>::infinity();
+  rep = check_mfcq(a, e);
+  CHECK(rep.message.find("equality Jacobian entry (0, 0) is -Inf") != std::string::npos);
+  e.coeffRef(0, 0) = 0;
+
+  std::vector<int> outer{0, 1, 2}, inner{0, 9};
+  std::vector<double> values{1, 1};
+  using map_rows = Eigen::Map<const sparse_rows>;
+  rep = check_mfcq(map_rows(2, 3, 2, outer.data(), inner.data(), values.data()), e);
+  CHECK(rep.findings.at(0).code == "invalid_sparse_structure");
+  CHECK(rep.message.find("the inequality Jacobian row 1 has an entry in column 9") !=
+        std::string::npos);
+  rep = check_mfcq(a, map_rows(2, 3, 2, outer.data(), inner.data(), values.data()));
+  CHECK(rep.message.find("the equality Jacobian row 1 has an entry in column 9") !=
+        std::string::npos);
+  // Repeated entries of a host's arrays are summed: rows (2, 0, 0) and (0, 1, 0).
+  inner = {0, 0, 1};
+  outer = {0, 2, 3};
+  values = {1, 1, 1};
+  QUALIFY_CHECK_HOLDS(check_mfcq(map_rows(2, 3, 3, outer.data(), inner.data(), values.data())));
+
+  rep = check_mfcq(a, sparse_rows(1, 4));
+  CHECK(rep.findings.at(0).code == "dimension_mismatch");
+  rep = check_mfcq(a, e, {}, {"only", "two"});
+  CHECK(rep.findings.at(0).code == "label_count");
+  CHECK(check_mfcq(sparse_rows(2, 0)).findings.at(0).code == "empty_jacobian");
+  mfcq_options bad;
+  bad.support_threshold = 1;
+  CHECK(check_mfcq(a, bad).findings.at(0).code == "bad_option");
+  QUALIFY_CHECK_HOLDS(check_mfcq(sparse_rows(0, 3), sparse_rows(0, 3)));  // vacuous
 }

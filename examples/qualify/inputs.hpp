@@ -3,6 +3,7 @@
 #pragma once
 
 #include <Eigen/Core>
+#include <Eigen/SparseCore>
 #include <charconv>
 #include <cmath>
 #include <cstring>
@@ -32,10 +33,25 @@ inline std::optional<double> parse_open_unit(std::string_view text) {
   return value;
 }
 
-/// The dense Jacobian in a Matrix Market file ('-': standard input). Keeps the reader's
-/// matrix_market_options::max_dense_entries (2^26 entries, 512 MiB): larger matrices are
-/// refused with a message, since this path holds every entry.
-inline result<Eigen::MatrixXd> read_dense_jacobian(const std::string& path) {
+/// A Jacobian as its file stores it: coordinate files sparse, array files dense.
+struct jacobian_input {
+  std::optional<Eigen::MatrixXd> dense;
+  std::optional<Eigen::SparseMatrix<double>> sparse;
+  Eigen::Index rows() const { return dense ? dense->rows() : sparse->rows(); }
+  Eigen::Index cols() const { return dense ? dense->cols() : sparse->cols(); }
+  /// Holds the matrix sparse from now on (to check it beside a sparse one).
+  void make_sparse() {
+    if (!dense) return;
+    sparse = dense->sparseView(0.0, 0.0);
+    dense.reset();
+  }
+};
+
+/// The Jacobian in a Matrix Market file ('-': standard input). Coordinate files are assembled
+/// sparse (duplicates summed) for the sparse check; array files dense, within the reader's
+/// matrix_market_options::max_dense_entries (2^26 entries, 512 MiB): larger ones are refused
+/// with a message, since that path holds every entry.
+inline result<jacobian_input> read_jacobian(const std::string& path) {
   const qualify::matrix_market_options options;
   const qualify::matrix_market_data data =
       path == "-" ? qualify::read_matrix_market(std::cin, options)
@@ -46,16 +62,25 @@ inline result<Eigen::MatrixXd> read_dense_jacobian(const std::string& path) {
                      path, std::nullopt};
     return problem{exit_code::data, shown_name(path) + ": " + data.message, path, data.line};
   }
+  jacobian_input out;
+  if (data.format == qualify::matrix_market_format::coordinate) {
+    auto sparse = qualify::to_sparse(data);
+    if (!sparse.ok)
+      return problem{exit_code::data, shown_name(path) + ": " + sparse.message, path, std::nullopt};
+    out.sparse = std::move(sparse.matrix);
+    return out;
+  }
   auto dense = qualify::to_dense(data, options);
   if (!dense.ok)
     return problem{exit_code::data,
                    fmt::format("{}: the size line announces a {} x {} matrix, more than the {} "
-                               "entries (max_dense_entries, {} MiB) the dense path holds; "
-                               "qualify does not read Jacobians sparse yet",
+                               "entries (max_dense_entries, {} MiB) an array file may hold; "
+                               "write it in coordinate form to have it checked sparse",
                                shown_name(path), data.rows, data.cols, options.max_dense_entries,
                                options.max_dense_entries * sizeof(double) >> 20),
                    path, std::nullopt};
-  return std::move(dense.matrix);
+  out.dense = std::move(dense.matrix);
+  return out;
 }
 
 /// An LP model in an MPS file ('-': standard input): 66 when it cannot be opened, 65 with the

@@ -18,6 +18,7 @@
 #include <qualify/lp.hpp>
 #include <qualify/mps.hpp>
 #include <qualify/slater.hpp>
+#include <qualify/sparse_licq.hpp>
 #include <qualify/version.hpp>
 #include <string>
 #include <vector>
@@ -82,7 +83,9 @@ const qualify_cli::command_spec licq_spec{
     "\n"
     "FILE.mtx is a Matrix Market file (NISTIR 5935): 'coordinate' or 'array', 'real',\n"
     "'integer' or 'pattern', 'general' symmetry; duplicate coordinate entries are summed;\n"
-    "'-' reads standard input. The matrix is held dense: rows x columns may not exceed\n"
+    "'-' reads standard input. A coordinate file is held sparse and checked by the sparse\n"
+    "path (SuiteSparse's SPQR when qualify was built with it, else the dense core up to\n"
+    "16777216 entries); an array file is held dense: rows x columns may not exceed\n"
     "67108864 entries (512 MiB).\n",
     "Output: the full report on stdout (verdict, rank, threshold, deciding value and margin,\n"
     "independent and dependent rows, findings such as dependent_row, duplicate_rows,\n"
@@ -111,13 +114,15 @@ int run_licq(const invocation& in) {
     if (!read) return in.fail(read.error());
     labels = std::move(*read);
   }
-  auto jacobian = qualify_cli::read_dense_jacobian(path);
+  auto jacobian = qualify_cli::read_jacobian(path);
   if (!jacobian) return in.fail(jacobian.error());
   const auto rows = static_cast<std::size_t>(jacobian->rows());
   if (labels_path && labels.size() != rows)
     return in.fail(label_count_problem(*labels_path, labels.size(), rows, shown_name(path)));
 
-  const qualify::licq_report report = qualify::check_licq(*jacobian, options, std::move(labels));
+  const qualify::licq_report report =
+      jacobian->sparse ? qualify::check_licq(*jacobian->sparse, options, std::move(labels))
+                       : qualify::check_licq(*jacobian->dense, options, std::move(labels));
   if (report.result == qualify::verdict::invalid_input)
     return in.fail({exit_code::data, shown_name(path) + ": " + report.message, path, std::nullopt});
   return print_report(in, report);
@@ -148,7 +153,8 @@ const qualify_cli::command_spec mfcq_spec{
     ">= 0 summing to 1 and mu with A^T lambda + E^T mu = 0 (a positive linear dependence).\n"
     "\n"
     "The files are Matrix Market (NISTIR 5935), as for 'qualify licq'; '-' reads standard\n"
-    "input (for one of them). Each matrix is held dense.\n",
+    "input (for one of them). When either file is in coordinate form, both are held\n"
+    "sparse and checked by the sparse path; two array files are held dense.\n",
     "Output: the full report on stdout (verdict, t*, the direction's margin, the certificate\n"
     "and the rows it names, the rank of E, LICQ on [A; E] for comparison). With --json, one\n"
     "JSON object on one line instead, with the keys schema_version, check, verdict,\n"
@@ -177,25 +183,34 @@ int run_mfcq(const invocation& in) {
     if (!read) return in.fail(read.error());
     labels = std::move(*read);
   }
-  auto ineq = qualify_cli::read_dense_jacobian(*ineq_path);
+  auto ineq = qualify_cli::read_jacobian(*ineq_path);
   if (!ineq) return in.fail(ineq.error());
-  Eigen::MatrixXd eq(0, ineq->cols());
+  qualify_cli::jacobian_input eq;
+  eq.dense = Eigen::MatrixXd(0, ineq->cols());
   if (eq_path) {
-    auto read = qualify_cli::read_dense_jacobian(*eq_path);
+    auto read = qualify_cli::read_jacobian(*eq_path);
     if (!read) return in.fail(read.error());
     eq = std::move(*read);
   }
-  const std::string shown = shown_name(*ineq_path) + (eq_path ? " and " + shown_name(*eq_path) : "");
+  const std::string shown =
+      shown_name(*ineq_path) + (eq_path ? " and " + shown_name(*eq_path) : "");
   const auto rows = static_cast<std::size_t>(ineq->rows() + eq.rows());
   if (labels_path && labels.size() != rows)
     return in.fail(label_count_problem(*labels_path, labels.size(), rows, shown));
 
-  const qualify::mfcq_report report = qualify::check_mfcq(*ineq, eq, options, std::move(labels));
+  // A coordinate file is checked sparse, and the other matrix with it.
+  if (ineq->sparse || eq.sparse) {
+    ineq->make_sparse();
+    eq.make_sparse();
+  }
+  const qualify::mfcq_report report =
+      ineq->sparse ? qualify::check_mfcq(*ineq->sparse, *eq.sparse, options, std::move(labels))
+                   : qualify::check_mfcq(*ineq->dense, *eq.dense, options, std::move(labels));
   if (report.result == qualify::verdict::invalid_input)
-    return in.fail({exit_code::data, shown + ": " + report.message,
-                    eq_path && report.message.find("equality") != std::string::npos ? *eq_path
-                                                                                      : *ineq_path,
-                    std::nullopt});
+    return in.fail(
+        {exit_code::data, shown + ": " + report.message,
+         eq_path && report.message.find("equality") != std::string::npos ? *eq_path : *ineq_path,
+         std::nullopt});
   return print_report(in, report);
 }
 

@@ -5,6 +5,7 @@
 #include <qualify/detail/dense.hpp>
 #include <qualify/report.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <optional>
 #include <string>
@@ -63,19 +64,21 @@ struct active_set {
 
 namespace detail {
 
-/// Chooses the active rows; the caller has checked sizes and finiteness.
-template <class Scalar>
-active_set select_active(const Eigen::Ref<const matrix<Scalar>>& jacobian,
-                         const vector<Scalar>& values,
-                         const std::vector<constraint_type>& types,
-                         const activity_options& options) {
+/// Chooses the active rows from the gradient norms of the rows; the caller has checked sizes
+/// and finiteness.
+template <class DerivedV>
+active_set select_active_by_norms(const std::vector<double>& gradient_norms,
+                                  const Eigen::MatrixBase<DerivedV>& values,
+                                  const std::vector<constraint_type>& types,
+                                  const activity_options& options) {
   active_set set;
   set.activity_tolerance = options.activity_tolerance;
-  for (Index i = 0; i < jacobian.rows(); ++i) {
-    const double scale = std::max(1.0, static_cast<double>(jacobian.row(i).stableNorm()));
+  for (std::size_t r = 0; r < gradient_norms.size(); ++r) {
+    const Index i = Index(r);
+    const double scale = std::max(1.0, gradient_norms[r]);
     const double tol = options.activity_tolerance * scale;
     const double value = static_cast<double>(values(i));
-    if (types[i] == constraint_type::equality) {
+    if (types[r] == constraint_type::equality) {
       set.active.push_back(i);
       if (std::abs(value) > tol) set.violated.push_back(i);
     } else if (value >= -tol) {
@@ -86,6 +89,17 @@ active_set select_active(const Eigen::Ref<const matrix<Scalar>>& jacobian,
     }
   }
   return set;
+}
+
+/// Chooses the active rows of a dense Jacobian; the caller has checked sizes and finiteness.
+template <class Scalar>
+active_set select_active(const Eigen::Ref<const matrix<Scalar>>& jacobian,
+                         const vector<Scalar>& values, const std::vector<constraint_type>& types,
+                         const activity_options& options) {
+  std::vector<double> norms(static_cast<std::size_t>(jacobian.rows()));
+  for (Index i = 0; i < jacobian.rows(); ++i)
+    norms[i] = static_cast<double>(jacobian.row(i).stableNorm());
+  return select_active_by_norms(norms, values, types, options);
 }
 
 }  // namespace detail

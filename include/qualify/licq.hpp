@@ -9,6 +9,7 @@
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
+#include <cstddef>
 #include <limits>
 #include <optional>
 #include <string>
@@ -24,6 +25,7 @@ enum class rank_method {
   deflated_qr,        ///< R with its rounding-level columns moved last, confirmed by bounds
   pivoted_qr,         ///< column-pivoted QR, confirmed by bounds on both sides of the gap
   svd,                ///< singular values, used when the pivoted QR left the gap unclear
+  sparse_qr,          ///< SPQR's sparse QR of J^T (sparse_licq.hpp), confirmed by estimates
 };
 
 constexpr std::string_view to_string(rank_method m) noexcept {
@@ -32,6 +34,7 @@ constexpr std::string_view to_string(rank_method m) noexcept {
     case rank_method::deflated_qr: return "deflated_qr";
     case rank_method::pivoted_qr: return "pivoted_qr";
     case rank_method::svd: return "svd";
+    case rank_method::sparse_qr: return "sparse_qr";
     case rank_method::none: break;
   }
   return "none";
@@ -63,6 +66,10 @@ struct licq_options {
   /// A holding verdict carries an `ill_conditioned` warning when sigma_min of the normalised
   /// rows is below this. Automatic (nullopt): sqrt(eps) (common practice, no source).
   std::optional<double> ill_conditioned_below;
+  /// Sparse Jacobians (sparse_licq.hpp): the dense core checks the matrix when rows * cols
+  /// <= this (16M entries, 128 MiB of doubles): without SPQR always, with SPQR only when the
+  /// sparse decision is unclear. Larger unclear cases are reported undecided.
+  std::size_t sparse_dense_limit = std::size_t(1) << 24;
   /// Used by the overload that picks active rows from constraint values.
   activity_options activity;
 
@@ -274,6 +281,159 @@ rank_decision<Scalar> decide_rank_deflated(const matrix<Scalar>& t, Scalar tau, 
   return out;
 }
 
+/// The verdict from a rank decision on k non-zero unit rows in n variables: full rank needs
+/// every row, zero rows included, to be independent, with sigma_min proven >= band * tau; one
+/// neglected direction proven <= tau suffices to fail.
+template <class Scalar>
+void set_verdict(licq_report& rep, Index k, Index n, const rank_decision<Scalar>& decision,
+                 Scalar tau, Scalar band) {
+  const Index r = decision.rank;
+  const bool structural = !rep.zero_rows.empty() || k > n;
+  if (!structural && r == k && (k == 0 || decision.kept_lower >= band * tau)) {
+    rep.result = verdict::holds;
+    rep.deciding_value = double(decision.kept_lower);
+  } else if (structural || (r < k && decision.dropped_upper <= tau)) {
+    rep.result = verdict::fails;
+    rep.deciding_value = structural ? 0.0 : double(decision.dropped_upper);
+  } else {
+    rep.result = verdict::undecided;
+    rep.deciding_value = double(r == k ? decision.kept_lower : decision.dropped_upper);
+  }
+  rep.margin = rep.deciding_value / double(tau);
+}
+
+/// Names the latest row of every dependence as the dependent one: the choice a person expects
+/// (a constraint imported again, a later row restating earlier ones), and the same whichever
+/// order the factorisation pivoted in, dense or sparse. When an explanation g_d = sum c_t g_t
+/// has a term row L > d, d and L exchange roles (g_L = (g_d - sum_{t != L} c_t g_t) / c_L, and
+/// the other explanations that use g_L are rewritten on the new basis), but only when the
+/// results check out, with residuals recomputed from the gradients by `residual(row, terms)`
+/// (relative to ||g_row||):
+/// - the new explanation of L: residual <= max(band * tau, the old one of d). An exchange on a
+///   small c_L divides the old residual by it and fails this, so a row is not named dependent
+///   on rows it is barely related to. (Not tau itself: an explanation of T terms rounds at
+///   about T * eps * sum |c_t| ||g_t|| / ||g_d||, above tau = max(m, n) * eps on dense rows.)
+/// - each rewritten explanation: its backward error residual / (1 + sum |c_t| ||g_t|| /
+///   ||g_row||) <= max(band * tau, the old one's). A rewrite adds a_L times the new residual
+///   of L, which its own coefficients magnify; the backward error measures it against them.
+/// Each exchange puts an earlier row in the basis in place of a later one, so the loop ends;
+/// when no exchange is left, every dependent row comes after the rows that explain it, which
+/// makes the independent rows the greedy basis (row i is dependent exactly when it is a
+/// combination of rows before it; the basis exchange property of linear independence).
+/// `norm(row)` is ||g_row||_2: terms whose coefficient on unit gradients falls to <= tau are
+/// omitted, as the factorisations omit them. Zero rows (no terms) stay as they are.
+template <class Residual, class Norm>
+void orient_dependencies(licq_report& rep, double tau, double band, Residual&& residual,
+                         Norm&& norm) {
+  using term = row_dependence::term;
+  // sum of weight * terms, merged by row, tiny terms (on unit gradients, relative to
+  // g_owner) dropped.
+  const auto combine = [&](Index owner,
+                           std::vector<std::pair<double, const std::vector<term>*>> parts) {
+    std::vector<term> all, out;
+    for (const auto& [weight, list] : parts)
+      for (const auto& t : *list) all.push_back({t.row, weight * t.coefficient});
+    std::stable_sort(all.begin(), all.end(),
+                     [](const term& a, const term& b) { return a.row < b.row; });
+    for (const term& t : all) {
+      if (!out.empty() && out.back().row == t.row)
+        out.back().coefficient += t.coefficient;
+      else
+        out.push_back(t);
+    }
+    const double owner_norm = double(norm(owner));
+    out.erase(
+        std::remove_if(out.begin(), out.end(),
+                       [&](const term& t) {
+                         return t.row == owner ||
+                                !(std::abs(t.coefficient) * double(norm(t.row)) > tau * owner_norm);
+                       }),
+        out.end());
+    std::sort(out.begin(), out.end(), [](const term& a, const term& b) {
+      return std::abs(a.coefficient) > std::abs(b.coefficient);
+    });
+    return out;
+  };
+  const auto backward_error = [&](const row_dependence& dep) {
+    double size = 1;
+    const double own = double(norm(dep.row));
+    for (const term& t : dep.terms) size += std::abs(t.coefficient) * double(norm(t.row)) / own;
+    return dep.residual / size;
+  };
+  const std::size_t limit = 4 * rep.dependencies.size() * (rep.dependencies.size() + 1) + 16;
+  for (std::size_t round = 0, changed = 1; changed && round < limit; ++round) {
+    changed = 0;
+    for (std::size_t a = 0; a < rep.dependencies.size(); ++a) {
+      row_dependence& dep = rep.dependencies[a];
+      const auto latest =
+          std::max_element(dep.terms.begin(), dep.terms.end(),
+                           [](const term& x, const term& y) { return x.row < y.row; });
+      if (latest == dep.terms.end() || latest->row < dep.row || latest->coefficient == 0) continue;
+      const Index l = latest->row;
+      const double c = latest->coefficient;
+      // g_l = (1 / c) g_d - sum_{t != l} (c_t / c) g_t
+      const std::vector<term> own{{dep.row, 1.0}}, single{{l, 1.0}};
+      row_dependence swapped{l, combine(l, {{1.0 / c, &own}, {-1.0 / c, &dep.terms}}), 0.0};
+      swapped.residual = double(residual(l, swapped.terms));
+      if (!(swapped.residual <= std::max(band * tau, dep.residual))) continue;
+      std::vector<std::pair<std::size_t, row_dependence>> rewritten;
+      bool valid = true;
+      for (std::size_t e = 0; e < rep.dependencies.size() && valid; ++e) {
+        const row_dependence& other = rep.dependencies[e];
+        if (e == a) continue;
+        const auto uses = std::find_if(other.terms.begin(), other.terms.end(),
+                                       [&](const term& t) { return t.row == l; });
+        if (uses == other.terms.end()) continue;
+        // g_e = sum_t a_t g_t with a_l g_l replaced by a_l (sum of swapped's terms)
+        const double weight = uses->coefficient;
+        row_dependence next{
+            other.row,
+            combine(other.row, {{1.0, &other.terms}, {-weight, &single}, {weight, &swapped.terms}}),
+            0.0};
+        next.residual = double(residual(next.row, next.terms));
+        valid = backward_error(next) <= std::max(band * tau, backward_error(other));
+        rewritten.push_back({e, std::move(next)});
+      }
+      if (!valid) continue;
+      std::replace(rep.independent_rows.begin(), rep.independent_rows.end(), l, dep.row);
+      dep = std::move(swapped);
+      for (auto& [e, next] : rewritten) rep.dependencies[e] = std::move(next);
+      changed = 1;
+    }
+  }
+}
+
+/// Files rows a, b (caller's numbering, row norms norm_a, norm_b) as duplicated, parallel or
+/// opposed when the chord of their unit directions is within parallel_tol.
+template <class Scalar>
+void record_pair(licq_report& rep, Index a, Index b, Scalar cosine, Scalar chord, Scalar norm_a,
+                 Scalar norm_b, Scalar parallel_tol) {
+  using std::abs;
+  if (chord > parallel_tol) return;
+  // Pairs are listed with the lower row first: g_second ~ ratio * g_first.
+  const bool a_first = a < b;
+  const Scalar ratio = (cosine > 0 ? 1 : -1) * (a_first ? norm_b / norm_a : norm_a / norm_b);
+  row_pair pair{a_first ? a : b, a_first ? b : a, double(ratio)};
+  if (cosine < 0)
+    rep.opposed_rows.push_back(pair);
+  else if (abs(ratio - Scalar(1)) <= parallel_tol)
+    rep.duplicate_rows.push_back(pair);
+  else
+    rep.parallel_rows.push_back(pair);
+}
+
+/// Row lists in the report in increasing row order.
+inline void sort_rows(licq_report& rep) {
+  const auto by_rows = [](const row_pair& x, const row_pair& y) {
+    return x.first != y.first ? x.first < y.first : x.second < y.second;
+  };
+  for (auto* list : {&rep.duplicate_rows, &rep.parallel_rows, &rep.opposed_rows})
+    std::sort(list->begin(), list->end(), by_rows);
+  std::sort(rep.independent_rows.begin(), rep.independent_rows.end());
+  std::sort(rep.dependencies.begin(), rep.dependencies.end(),
+            [](const row_dependence& x, const row_dependence& y) { return x.row < y.row; });
+}
+
 /// The LICQ analysis of the rows of `jac`; `global` maps its rows to the caller's numbering
 /// (empty: the identity). Inputs have been validated.
 template <class Scalar>
@@ -364,20 +524,7 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
                              ? rep.largest_singular_value / rep.smallest_singular_value
                              : std::numeric_limits<double>::infinity();
 
-  // The verdict: full rank needs every row, zero rows included, to be independent, with
-  // sigma_min proven >= band * tau; one neglected direction proven <= tau suffices to fail.
-  const bool structural = !rep.zero_rows.empty() || k > n;
-  if (!structural && r == k && (k == 0 || decision.kept_lower >= band * tau)) {
-    rep.result = verdict::holds;
-    rep.deciding_value = double(decision.kept_lower);
-  } else if (structural || (r < k && decision.dropped_upper <= tau)) {
-    rep.result = verdict::fails;
-    rep.deciding_value = structural ? 0.0 : double(decision.dropped_upper);
-  } else {
-    rep.result = verdict::undecided;
-    rep.deciding_value = double(r == k ? decision.kept_lower : decision.dropped_upper);
-  }
-  rep.margin = rep.deciding_value / double(tau);
+  set_verdict<Scalar>(rep, k, n, decision, tau, band);
 
   // Independent rows and the explanation of every dependent one on them.
   for (Index c = 0; c < r; ++c) rep.independent_rows.push_back(to_global(kept[decision.order[c]]));
@@ -413,19 +560,21 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
       rep.dependencies.push_back(std::move(dep));
     }
 
-    // Which row of a parallel pair is called dependent is arbitrary (pivoting picks by norm);
-    // a person expects the later row (the copy) to be the dependent one, so swap roles.
-    for (std::size_t a = rep.zero_rows.size(); a < rep.dependencies.size(); ++a) {
-      auto& dep = rep.dependencies[a];
-      if (dep.terms.size() != 1 || dep.terms[0].row < dep.row) continue;
-      const Index kept_row = dep.terms[0].row;
-      const double c = dep.terms[0].coefficient;  // g_dep = c * g_kept
-      for (auto& other : rep.dependencies)
-        for (auto& t : other.terms)
-          if (t.row == kept_row && &other != &dep) t = {dep.row, t.coefficient / c};
-      std::replace(rep.independent_rows.begin(), rep.independent_rows.end(), kept_row, dep.row);
-      dep = {kept_row, {{dep.row, 1.0 / c}}, dep.residual};
-    }
+    // The caller's rows back to the rows of jac, for the explanations' rewriting.
+    const auto local = [&](Index row) {
+      return global.empty()
+                 ? row
+                 : Index(std::lower_bound(global.begin(), global.end(), row) - global.begin());
+    };
+    orient_dependencies(
+        rep, double(tau), double(band),
+        [&](Index row, const std::vector<row_dependence::term>& terms) {
+          vector<Scalar> w = jac.row(local(row)).transpose();
+          for (const auto& t : terms)
+            w -= Scalar(t.coefficient) * jac.row(local(t.row)).transpose();
+          return double(w.stableNorm() / norms(local(row)));
+        },
+        [&](Index row) { return double(norms(local(row))); });
 
     // Duplicated, parallel and opposed pairs: one side of every such pair is dependent.
     // Cosines by matrix products; the exact chord only for the few pairs that are close.
@@ -436,18 +585,8 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
     const auto classify = [&](Index a, Index b, Scalar cosine, const auto& ua, const auto& ub) {
       if (abs(cosine) < Scalar(0.5)) return;
       const Scalar chord = cosine > 0 ? (ua - ub).norm() : (ua + ub).norm();
-      if (chord > parallel_tol) return;
-      // Pairs are listed with the lower row first: g_second ~ ratio * g_first.
-      const bool a_first = to_global(a) < to_global(b);
-      const Index first = a_first ? a : b, second = a_first ? b : a;
-      const Scalar ratio = (cosine > 0 ? 1 : -1) * norms(second) / norms(first);
-      row_pair pair{to_global(first), to_global(second), double(ratio)};
-      if (cosine < 0)
-        rep.opposed_rows.push_back(pair);
-      else if (abs(ratio - Scalar(1)) <= parallel_tol)
-        rep.duplicate_rows.push_back(pair);
-      else
-        rep.parallel_rows.push_back(pair);
+      record_pair<Scalar>(rep, to_global(a), to_global(b), cosine, chord, norms(a), norms(b),
+                          parallel_tol);
     };
     for (Index c = 0; c < d; ++c) {
       const Index a = kept[decision.order[r + c]];
@@ -456,15 +595,8 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
         classify(a, b, cosines(c, b) / norms(b), unit_dep.row(c), jac.row(b) / norms(b));
       }
     }
-    const auto by_rows = [](const row_pair& x, const row_pair& y) {
-      return x.first != y.first ? x.first < y.first : x.second < y.second;
-    };
-    for (auto* list : {&rep.duplicate_rows, &rep.parallel_rows, &rep.opposed_rows})
-      std::sort(list->begin(), list->end(), by_rows);
   }
-  std::sort(rep.independent_rows.begin(), rep.independent_rows.end());
-  std::sort(rep.dependencies.begin(), rep.dependencies.end(),
-            [](const row_dependence& x, const row_dependence& y) { return x.row < y.row; });
+  sort_rows(rep);
 
   // The same decision on the gradients as given: sigma_i(D U) lies within
   // [min D, max D] * sigma_i(U), so the normalised bounds settle it unless rows are badly
@@ -594,15 +726,13 @@ void check_scalar() {
 
 namespace detail {
 
-/// The report both overloads start from: sizes, names, and the checks of the options, the
-/// labels and the entries; `result` is invalid_input when one of them fails.
-template <class Derived>
-licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const licq_options& options,
-                           std::vector<std::string> labels) {
-  check_scalar<Derived>();
+/// The report every check_licq starts from: sizes, names, and the checks of the options, the
+/// labels and the column count; `result` is invalid_input when one of them fails.
+inline licq_report licq_start(Index rows, Index cols, const licq_options& options,
+                              std::vector<std::string> labels) {
   licq_report rep;
-  rep.rows = jacobian.rows();
-  rep.cols = jacobian.cols();
+  rep.rows = rows;
+  rep.cols = cols;
   rep.relative_threshold_requested = options.relative_threshold;
   const std::size_t label_count = labels.size();
   rep.names = row_names(std::move(labels));
@@ -611,9 +741,34 @@ licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const lic
     return invalid_licq(rep, "label_count", count_message(label_count, "labels", rep.rows));
   if (rep.cols == 0)
     return invalid_licq(rep, "empty_jacobian", "the Jacobian has no columns (variables)");
+  return rep;
+}
+
+/// The report both dense overloads start from: licq_start's checks and finite entries.
+template <class Derived>
+licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const licq_options& options,
+                           std::vector<std::string> labels) {
+  check_scalar<Derived>();
+  licq_report rep = licq_start(jacobian.rows(), jacobian.cols(), options, std::move(labels));
+  if (rep.result == verdict::invalid_input) return rep;
   if (auto bad = non_finite_message(jacobian, "Jacobian"))
     return invalid_licq(rep, "non_finite_entry", *bad);
   return rep;
+}
+
+/// The invalid_input report when constraint values or types do not fit the rows of `rep`.
+template <class DerivedV>
+std::optional<licq_report> point_input_problem(const licq_report& rep,
+                                               const Eigen::MatrixBase<DerivedV>& values,
+                                               const std::vector<constraint_type>& types) {
+  if (values.cols() != 1 || values.rows() != rep.rows)
+    return invalid_licq(rep, "value_count",
+                        count_message(std::size_t(values.size()), "values", rep.rows));
+  if (types.size() != std::size_t(rep.rows))
+    return invalid_licq(rep, "type_count", count_message(types.size(), "types", rep.rows));
+  if (auto bad = non_finite_message(values, "value"))
+    return invalid_licq(rep, "non_finite_entry", *bad);
+  return std::nullopt;
 }
 
 }  // namespace detail
@@ -644,13 +799,7 @@ licq_report check_licq(const Eigen::MatrixBase<DerivedJ>& jacobian,
   using Scalar = typename DerivedJ::Scalar;
   licq_report rep = detail::validated_licq(jacobian, options, std::move(labels));
   if (rep.result == verdict::invalid_input) return rep;
-  if (values.cols() != 1 || values.rows() != rep.rows)
-    return detail::invalid_licq(rep, "value_count",
-                                detail::count_message(std::size_t(values.size()), "values", rep.rows));
-  if (types.size() != std::size_t(rep.rows))
-    return detail::invalid_licq(rep, "type_count", detail::count_message(types.size(), "types", rep.rows));
-  if (auto bad = detail::non_finite_message(values, "value"))
-    return detail::invalid_licq(rep, "non_finite_entry", *bad);
+  if (auto bad = detail::point_input_problem(rep, values, types)) return *bad;
 
   const Eigen::Ref<const detail::matrix<Scalar>> full(jacobian);
   const detail::vector<Scalar> vals = values.template cast<Scalar>();

@@ -7,6 +7,7 @@
 #include <qualify/detail/dense.hpp>
 #include <qualify/licq.hpp>
 #include <qualify/report.hpp>
+#include <qualify/sparse_licq.hpp>
 
 #include <cmath>
 #include <limits>
@@ -213,6 +214,31 @@ struct qualification_report {
   linear_cq_report linear_cq;
 };
 
+namespace detail {
+
+/// The linear CQ beside a LICQ report that picked its active rows from values.
+inline qualification_report qualifications_from(licq_report licq, Index rows,
+                                                const std::vector<constraint_kind>& kinds,
+                                                const std::vector<std::string>& labels) {
+  qualification_report rep;
+  rep.licq = std::move(licq);
+  if (kinds.size() != std::size_t(rows)) {
+    rep.linear_cq.names = row_names(labels);
+    rep.linear_cq = detail::invalid_linear_cq(
+        rep.linear_cq, "kind_count",
+        std::to_string(kinds.size()) + " kinds for " + std::to_string(rows) + " rows");
+  } else if (rep.licq.result == verdict::invalid_input) {
+    rep.linear_cq.names = row_names(labels);
+    rep.linear_cq = detail::invalid_linear_cq(rep.linear_cq, "invalid_jacobian",
+                                              "the LICQ input was invalid: " + rep.licq.message);
+  } else {
+    rep.linear_cq = check_linear_cq(kinds, rep.licq.active->active, labels);
+  }
+  return rep;
+}
+
+}  // namespace detail
+
 /// Picks the active rows from `values` and `types`, then checks LICQ on them and the linear CQ
 /// from their declared `kinds`.
 template <class DerivedJ, class DerivedV>
@@ -222,21 +248,20 @@ qualification_report check_qualifications(const Eigen::MatrixBase<DerivedJ>& jac
                                           const std::vector<constraint_kind>& kinds,
                                           const licq_options& options = {},
                                           const std::vector<std::string>& labels = {}) {
-  qualification_report rep;
-  rep.licq = check_licq(jacobian, values, types, options, labels);
-  if (kinds.size() != std::size_t(jacobian.rows())) {
-    rep.linear_cq.names = row_names(labels);
-    rep.linear_cq = detail::invalid_linear_cq(
-        rep.linear_cq, "kind_count",
-        std::to_string(kinds.size()) + " kinds for " + std::to_string(jacobian.rows()) + " rows");
-  } else if (rep.licq.result == verdict::invalid_input) {
-    rep.linear_cq.names = row_names(labels);
-    rep.linear_cq = detail::invalid_linear_cq(rep.linear_cq, "invalid_jacobian",
-                                              "the LICQ input was invalid: " + rep.licq.message);
-  } else {
-    rep.linear_cq = check_linear_cq(kinds, rep.licq.active->active, labels);
-  }
-  return rep;
+  return detail::qualifications_from(check_licq(jacobian, values, types, options, labels),
+                                     jacobian.rows(), kinds, labels);
+}
+
+/// The same on a sparse Jacobian (sparse_licq.hpp decides LICQ).
+template <class DerivedJ, class DerivedV>
+qualification_report check_qualifications(const Eigen::SparseMatrixBase<DerivedJ>& jacobian,
+                                          const Eigen::MatrixBase<DerivedV>& values,
+                                          const std::vector<constraint_type>& types,
+                                          const std::vector<constraint_kind>& kinds,
+                                          const licq_options& options = {},
+                                          const std::vector<std::string>& labels = {}) {
+  return detail::qualifications_from(check_licq(jacobian, values, types, options, labels),
+                                     jacobian.rows(), kinds, labels);
 }
 
 }  // namespace qualify

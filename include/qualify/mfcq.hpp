@@ -3,6 +3,7 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <Eigen/SparseCholesky>
 #include <algorithm>
 #include <cmath>
 #include <limits>
@@ -10,6 +11,7 @@
 #include <qualify/licq.hpp>
 #include <qualify/lp.hpp>
 #include <qualify/report.hpp>
+#include <qualify/sparse_licq.hpp>
 #include <string>
 #include <vector>
 
@@ -157,28 +159,205 @@ inline void polish_dependence(const Eigen::MatrixXd& a_support, const Eigen::Mat
   mu = polished.tail(q);
 }
 
-}  // namespace detail
+/// Sparse rows in double: the form the MFCQ core works on for sparse input.
+using mfcq_sparse = Eigen::SparseMatrix<double, Eigen::RowMajor>;
 
-/// MFCQ at a point from the Jacobian A of the active inequalities g_i(x) <= 0 (rows =
-/// gradients) and the Jacobian E of the equalities (may have 0 rows): holds when E has full
-/// row rank and some d has E d = 0, A d < 0. Decided on unit gradients by the LP
-/// max t s.t. A d + t 1 <= 0, E d = 0, -1 <= d <= 1, t <= 1 (t* > 0 iff such d exists), with
-/// the direction checked directly when it holds and a positive dependence from the LP duals
-/// (Motzkin's theorem of the alternative) when it fails. `labels`: empty, or one per row of
-/// A followed by one per row of E. Decided in double whatever the scalar.
-template <class DerivedA, class DerivedE>
-mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
-                       const Eigen::MatrixBase<DerivedE>& eq_jacobian,
-                       const mfcq_options& options = {}, std::vector<std::string> labels = {}) {
-  detail::check_scalar<DerivedA>();
-  detail::check_scalar<DerivedE>();
-  using Eigen::MatrixXd;
+/// The same polish for sparse gradients, without anything of size n x (s + q): the step keeps
+/// sum lambda by writing lambda's step as B w (B = [I; -1^T], so column i of A_S^T B is
+/// a_i - a_last), and the least-squares problem in w is solved by a sparse LDL^T of its normal
+/// equations with a ridge of 1e-14 x their largest diagonal entry (so that a rank-deficient
+/// system still has one solution) and one refinement step. Kept, as in the dense polish, only
+/// when lambda stays >= 0 and the residual falls.
+inline void polish_dependence(const mfcq_sparse& a_support, const mfcq_sparse& e_unit,
+                              Eigen::VectorXd& lambda, Eigen::VectorXd& mu) {
   using Eigen::VectorXd;
+  const Index s = a_support.rows(), q = e_unit.rows(), n = a_support.cols(), w_size = s - 1 + q;
+  if (w_size == 0) return;
+  Eigen::SparseMatrix<double> m(n, s + q), mb(n, w_size);
+  {
+    std::vector<Eigen::Triplet<double>> full, reduced;
+    for (Index i = 0; i < s; ++i)
+      for (mfcq_sparse::InnerIterator it(a_support, i); it; ++it) {
+        full.emplace_back(it.col(), i, it.value());
+        if (i < s - 1) reduced.emplace_back(it.col(), i, it.value());
+        if (i == s - 1)
+          for (Index c = 0; c < s - 1; ++c) reduced.emplace_back(it.col(), c, -it.value());
+      }
+    for (Index j = 0; j < q; ++j)
+      for (mfcq_sparse::InnerIterator it(e_unit, j); it; ++it) {
+        full.emplace_back(it.col(), s + j, it.value());
+        reduced.emplace_back(it.col(), s - 1 + j, it.value());
+      }
+    m.setFromTriplets(full.begin(), full.end());
+    mb.setFromTriplets(reduced.begin(), reduced.end());  // repeated positions are summed
+  }
+  VectorXd z(s + q);
+  z << lambda, mu;
+  const VectorXd r0 = m * z;
+  Eigen::SparseMatrix<double> normal = mb.transpose() * mb;
+  double ridge = 0;
+  for (Index c = 0; c < w_size; ++c) ridge = std::max(ridge, normal.coeff(c, c));
+  ridge = std::max(ridge, 1.0) * 1e-14;
+  for (Index c = 0; c < w_size; ++c) normal.coeffRef(c, c) += ridge;
+  Eigen::SimplicialLDLT<Eigen::SparseMatrix<double>> ldlt(normal);
+  if (ldlt.info() != Eigen::Success) return;
+  VectorXd w = ldlt.solve(VectorXd(-(mb.transpose() * r0)));
+  const VectorXd correction = -(mb.transpose() * (mb * w + r0)) - ridge * w;
+  w += ldlt.solve(correction);
+  VectorXd step(s + q);
+  step.head(s - 1) = w.head(s - 1);
+  step(s - 1) = -w.head(s - 1).sum();
+  step.tail(q) = w.tail(q);
+  const VectorXd polished = z + step;
+  if (!polished.allFinite() || polished.head(s).minCoeff() < 0) return;
+  if ((m * polished).norm() >= r0.norm()) return;
+  lambda = polished.head(s);
+  mu = polished.tail(q);
+}
+
+// The few operations of the MFCQ core that differ between dense and sparse gradients.
+
+inline Eigen::VectorXd row_norms(const Eigen::MatrixXd& m) {
+  Eigen::VectorXd out(m.rows());
+  for (Index i = 0; i < m.rows(); ++i) out(i) = m.row(i).stableNorm();
+  return out;
+}
+
+inline Eigen::VectorXd row_norms(const mfcq_sparse& m) {
+  std::vector<double> norms;
+  std::vector<sparse_index> counts;
+  sparse_row_norms(m, norms, counts);
+  return Eigen::Map<const Eigen::VectorXd>(norms.data(), Index(norms.size()));
+}
+
+inline Eigen::MatrixXd select_rows(const Eigen::MatrixXd& m, const std::vector<Index>& rows) {
+  return m(rows, Eigen::all);
+}
+
+inline mfcq_sparse select_rows(const mfcq_sparse& m, const std::vector<Index>& rows) {
+  mfcq_sparse out(Index(rows.size()), m.cols());
+  Index nnz = 0;
+  for (Index i : rows) nnz += m.row(i).nonZeros();
+  out.reserve(nnz);
+  for (std::size_t k = 0; k < rows.size(); ++k) {
+    out.startVec(Index(k));
+    for (mfcq_sparse::InnerIterator it(m, rows[k]); it; ++it)
+      out.insertBack(Index(k), it.col()) = it.value();
+  }
+  out.finalize();
+  return out;
+}
+
+inline Eigen::MatrixXd stack_rows(const Eigen::MatrixXd& top, const Eigen::MatrixXd& bottom) {
+  Eigen::MatrixXd out(top.rows() + bottom.rows(), top.cols());
+  out << top, bottom;
+  return out;
+}
+
+inline mfcq_sparse stack_rows(const mfcq_sparse& top, const mfcq_sparse& bottom) {
+  mfcq_sparse out(top.rows() + bottom.rows(), top.cols());
+  out.reserve(top.nonZeros() + bottom.nonZeros());
+  for (Index i = 0; i < out.rows(); ++i) {
+    out.startVec(i);
+    const bool upper = i < top.rows();
+    for (mfcq_sparse::InnerIterator it(upper ? top : bottom, upper ? i : i - top.rows()); it; ++it)
+      out.insertBack(i, it.col()) = it.value();
+  }
+  out.finalize();
+  return out;
+}
+
+/// The MFCQ LP max t s.t. A d + t 1 <= 0, E d = 0, -1 <= d <= 1, t <= 1 on unit rows; the
+/// result's x is (d, t) and its row_duals are those of the A and E rows.
+inline lp_result solve_mfcq_lp(const Eigen::MatrixXd& a_unit, const Eigen::MatrixXd& e_unit,
+                               const lp_options& options) {
+  const Index ma = a_unit.rows(), q = e_unit.rows(), n = a_unit.cols();
+  const double inf = std::numeric_limits<double>::infinity();
+  Eigen::MatrixXd lp_a = Eigen::MatrixXd::Zero(ma + q, n + 1);
+  lp_a.topLeftCorner(ma, n) = a_unit;
+  lp_a.topRightCorner(ma, 1).setOnes();
+  lp_a.bottomLeftCorner(q, n) = e_unit;
+  Eigen::VectorXd row_lower = Eigen::VectorXd::Constant(ma + q, -inf);
+  row_lower.tail(q).setZero();
+  Eigen::VectorXd c = Eigen::VectorXd::Zero(n + 1),
+                  col_lower = Eigen::VectorXd::Constant(n + 1, -1.0);
+  c(n) = -1;
+  col_lower(n) = -inf;
+  return solve_lp(lp_a, c, row_lower, Eigen::VectorXd::Zero(ma + q), col_lower,
+                  Eigen::VectorXd::Ones(n + 1), options);
+}
+
+/// The same LP for sparse rows, with t written as a chain s_1 = s_2 = ... = s_ma (rows
+/// a_i . d + s_i <= 0 and s_i - s_{i+1} = 0): the column of t would otherwise be dense (one
+/// entry per inequality), and the LP engine's update for dense columns stalls on these
+/// degenerate LPs (numerical_trouble from about 2000 rows of banded equalities). The duals of
+/// the A rows keep their meaning: the chain passes the objective's weight on to them.
+inline lp_result solve_mfcq_lp(const mfcq_sparse& a_unit, const mfcq_sparse& e_unit,
+                               const lp_options& options) {
+  const Index ma = a_unit.rows(), q = e_unit.rows(), n = a_unit.cols();
+  const Index rows = ma + q + std::max<Index>(ma - 1, 0), cols = n + ma;
+  const double inf = std::numeric_limits<double>::infinity();
+  std::vector<Eigen::Triplet<double>> entries;
+  entries.reserve(std::size_t(a_unit.nonZeros() + e_unit.nonZeros() + 3 * ma));
+  for (Index i = 0; i < ma; ++i) {
+    for (mfcq_sparse::InnerIterator it(a_unit, i); it; ++it)
+      entries.emplace_back(i, it.col(), it.value());
+    entries.emplace_back(i, n + i, 1.0);
+  }
+  for (Index j = 0; j < q; ++j)
+    for (mfcq_sparse::InnerIterator it(e_unit, j); it; ++it)
+      entries.emplace_back(ma + j, it.col(), it.value());
+  for (Index i = 0; i + 1 < ma; ++i) {
+    entries.emplace_back(ma + q + i, n + i, 1.0);
+    entries.emplace_back(ma + q + i, n + i + 1, -1.0);
+  }
+  Eigen::SparseMatrix<double> lp_a(rows, cols);
+  lp_a.setFromTriplets(entries.begin(), entries.end());
+  Eigen::VectorXd row_lower = Eigen::VectorXd::Zero(rows);
+  row_lower.head(ma).setConstant(-inf);
+  Eigen::VectorXd c = Eigen::VectorXd::Zero(cols),
+                  col_lower = Eigen::VectorXd::Constant(cols, -1.0),
+                  col_upper = Eigen::VectorXd::Ones(cols);
+  c(n) = -1;
+  col_lower.tail(ma).setConstant(-inf);
+  lp_result lp =
+      solve_lp(lp_a, c, row_lower, Eigen::VectorXd::Zero(rows), col_lower, col_upper, options);
+  if (lp.x.size() == cols) lp.x.conservativeResize(n + 1);  // (d, s_1 = t)
+  if (lp.row_duals.size() == rows) lp.row_duals.conservativeResize(ma + q);
+  return lp;
+}
+
+/// d minus its component in the row space of E (unit rows, a basis of their span).
+inline void project_out(const Eigen::MatrixXd& e_unit, Eigen::VectorXd& d) {
+  if (e_unit.rows() == 0) return;
+  Eigen::HouseholderQR<Eigen::MatrixXd> qr(e_unit.transpose());
+  d -= e_unit.transpose() * Eigen::VectorXd(qr.solve(d));
+}
+
+/// The same for sparse E, by a sparse LDL^T of E E^T (ridge 1e-14: E may be near-singular
+/// when its rank was undecided) and a second projection of what is left. The result is not
+/// trusted: the caller checks |e_j . d| itself.
+inline void project_out(const mfcq_sparse& e_unit, Eigen::VectorXd& d) {
+  const Index q = e_unit.rows();
+  if (q == 0) return;
+  Eigen::SparseMatrix<double> gram = e_unit * e_unit.transpose();
+  for (Index j = 0; j < q; ++j) gram.coeffRef(j, j) += 1e-14;
+  Eigen::SimplicialLDLT<Eigen::SparseMatrix<double>> ldlt(gram);
+  if (ldlt.info() != Eigen::Success) return;
+  for (int pass = 0; pass < 2; ++pass) {
+    const Eigen::VectorXd y = ldlt.solve(Eigen::VectorXd(e_unit * d));
+    d -= e_unit.transpose() * y;
+  }
+}
+
+/// The report both check_mfcq forms start from: sizes, names (labels as given, or "ineq i" /
+/// "eq j", returned in `labels`), and the checks of the options, the labels and the sizes.
+inline mfcq_report mfcq_start(Index ma, Index a_cols, Index me, Index e_cols,
+                              const mfcq_options& options, std::vector<std::string>& labels) {
   mfcq_report rep;
-  const Index ma = ineq_jacobian.rows(), me = eq_jacobian.rows();
   rep.ineq_rows = ma;
   rep.eq_rows = me;
-  rep.cols = ma > 0 || me == 0 ? ineq_jacobian.cols() : eq_jacobian.cols();
+  rep.cols = ma > 0 || me == 0 ? a_cols : e_cols;
   rep.relative_threshold_requested = options.relative_threshold;
   rep.undecided_band = options.undecided_band;
   const std::size_t label_count = labels.size();
@@ -187,30 +366,32 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
     for (Index j = 0; j < me; ++j) labels.push_back("eq " + std::to_string(j));
   }
   rep.names = row_names(labels);
-  if (auto bad = options.validate(); !bad.empty())
-    return detail::invalid_mfcq(rep, "bad_option", bad);
+  if (auto bad = options.validate(); !bad.empty()) return invalid_mfcq(rep, "bad_option", bad);
   if (label_count != 0 && label_count != std::size_t(ma + me)) {
     rep.names = row_names();
-    return detail::invalid_mfcq(rep, "label_count",
-                                std::to_string(label_count) + " labels for " + std::to_string(ma) +
-                                    " inequality and " + std::to_string(me) + " equality rows");
+    return invalid_mfcq(rep, "label_count",
+                        std::to_string(label_count) + " labels for " + std::to_string(ma) +
+                            " inequality and " + std::to_string(me) + " equality rows");
   }
   // A block without rows may come with any column count (an empty MatrixXd).
-  const bool a_sized = ma > 0 || ineq_jacobian.cols() > 0;
-  const bool e_sized = me > 0 || eq_jacobian.cols() > 0;
-  if (a_sized && e_sized && ineq_jacobian.cols() != eq_jacobian.cols())
-    return detail::invalid_mfcq(
-        rep, "dimension_mismatch",
-        "the inequality Jacobian has " + std::to_string(ineq_jacobian.cols()) +
-            " columns, the equality Jacobian " + std::to_string(eq_jacobian.cols()));
+  const bool a_sized = ma > 0 || a_cols > 0;
+  const bool e_sized = me > 0 || e_cols > 0;
+  if (a_sized && e_sized && a_cols != e_cols)
+    return invalid_mfcq(rep, "dimension_mismatch",
+                        "the inequality Jacobian has " + std::to_string(a_cols) +
+                            " columns, the equality Jacobian " + std::to_string(e_cols));
   if (ma + me > 0 && rep.cols == 0)
-    return detail::invalid_mfcq(rep, "empty_jacobian", "the Jacobians have no columns (variables)");
-  if (auto bad = detail::non_finite_message(ineq_jacobian, "inequality Jacobian"))
-    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
-  if (auto bad = detail::non_finite_message(eq_jacobian, "equality Jacobian"))
-    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
+    return invalid_mfcq(rep, "empty_jacobian", "the Jacobians have no columns (variables)");
+  return rep;
+}
 
-  const Index n = rep.cols;
+/// MFCQ on validated gradients in double, dense (MatrixXd) or sparse (mfcq_sparse); blocks
+/// without rows have rep.cols columns.
+template <class Matrix>
+mfcq_report mfcq_run(const Matrix& a, const Matrix& e, const mfcq_options& options,
+                     const std::vector<std::string>& labels, mfcq_report rep) {
+  using Eigen::VectorXd;
+  const Index ma = a.rows(), me = e.rows(), n = rep.cols;
   const double tau = options.relative_threshold.value_or(
       10 * std::max(options.lp.gap_tolerance, options.lp.dual_tolerance));
   const double band = options.undecided_band;
@@ -223,11 +404,8 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
     rep.message = "MFCQ holds vacuously: no active inequality and no equality constraint";
     return rep;
   }
-
-  const MatrixXd a = ineq_jacobian.template cast<double>();
-  const MatrixXd e =
-      eq_jacobian.rows() > 0 ? MatrixXd(eq_jacobian.template cast<double>()) : MatrixXd(0, n);
   const std::vector<std::string> eq_labels(labels.begin() + ma, labels.end());
+  const VectorXd a_norm = row_norms(a), e_norm = row_norms(e);
 
   // Rank of E, with its dependent rows explained by the LICQ analysis.
   verdict eq_verdict = verdict::holds;
@@ -240,7 +418,7 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
       eq_used = el.independent_rows;
     } else {
       for (Index j = 0; j < me; ++j)
-        if (e.row(j).norm() > 0) eq_used.push_back(j);
+        if (e_norm(j) > 0) eq_used.push_back(j);
     }
     for (const auto& f : el.findings) {
       std::vector<Index> rows;
@@ -253,21 +431,14 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
                       " of " + std::to_string(me) + "): no multiplier set can be bounded",
                   {}, names);
   }
-  if (options.compare_with_licq) {
-    MatrixXd stacked(ma + me, n);
-    stacked << a, e;
-    rep.licq = check_licq(stacked, options.licq, labels);
-  }
+  if (options.compare_with_licq) rep.licq = check_licq(stack_rows(a, e), options.licq, labels);
 
-  VectorXd a_norm(ma), e_norm(me);
-  for (Index i = 0; i < ma; ++i) a_norm(i) = a.row(i).stableNorm();
-  for (Index j = 0; j < me; ++j) e_norm(j) = e.row(j).stableNorm();
   std::vector<Index> zero_rows;
   for (Index i = 0; i < ma; ++i)
     if (a_norm(i) <= options.zero_row_norm) zero_rows.push_back(i);
   const Index q = Index(eq_used.size());
-  MatrixXd e_unit(q, n);
-  for (Index k = 0; k < q; ++k) e_unit.row(k) = e.row(eq_used[k]) / e_norm(eq_used[k]);
+  const Matrix e_unit =
+      VectorXd(e_norm(eq_used).cwiseInverse()).asDiagonal() * select_rows(e, eq_used);
 
   // The direction part: does some d with E d = 0 decrease every active inequality?
   verdict dir_verdict = verdict::undecided;
@@ -288,20 +459,8 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
     rep.direction = VectorXd::Zero(n);
     rep.max_ineq_derivative = -std::numeric_limits<double>::infinity();
   } else {
-    MatrixXd a_unit(ma, n);
-    for (Index i = 0; i < ma; ++i) a_unit.row(i) = a.row(i) / a_norm(i);
-    MatrixXd lp_a = MatrixXd::Zero(ma + q, n + 1);
-    lp_a.topLeftCorner(ma, n) = a_unit;
-    lp_a.topRightCorner(ma, 1).setOnes();
-    lp_a.bottomLeftCorner(q, n) = e_unit;
-    const double inf = std::numeric_limits<double>::infinity();
-    VectorXd row_lower = VectorXd::Constant(ma + q, -inf), row_upper = VectorXd::Zero(ma + q);
-    row_lower.tail(q).setZero();
-    VectorXd c = VectorXd::Zero(n + 1), col_lower = VectorXd::Constant(n + 1, -1.0),
-             col_upper = VectorXd::Ones(n + 1);
-    c(n) = -1;
-    col_lower(n) = -inf;
-    const lp_result lp = solve_lp(lp_a, c, row_lower, row_upper, col_lower, col_upper, options.lp);
+    const Matrix a_unit = VectorXd(a_norm.cwiseInverse()).asDiagonal() * a;
+    const lp_result lp = solve_mfcq_lp(a_unit, e_unit, options.lp);
     rep.lp = lp.status;
     rep.lp_iterations = lp.iterations;
     if (lp.status != lp_status::optimal) {
@@ -313,20 +472,17 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
       rep.margin = lp.x(n);
       // The direction, projected on null(E) and scaled to ||d||_inf = 1, checked directly.
       VectorXd d = lp.x.head(n);
-      if (q > 0) {
-        Eigen::HouseholderQR<MatrixXd> qr(e_unit.transpose());
-        d -= e_unit.transpose() * VectorXd(qr.solve(d));
-      }
-      const double dn = d.lpNorm<Eigen::Infinity>();
+      project_out(e_unit, d);
+      const double dn = d.template lpNorm<Eigen::Infinity>();
       if (dn > 0 && std::isfinite(dn)) d /= dn;
       rep.direction = d;
-      rep.direction_margin = -(a_unit * d).maxCoeff();
-      rep.max_ineq_derivative = (a * d).maxCoeff();
+      rep.direction_margin = -VectorXd(a_unit * d).maxCoeff();
+      rep.max_ineq_derivative = VectorXd(a * d).maxCoeff();
       rep.equality_residual = 0;
+      const VectorXd ed = e * d;
       for (Index j = 0; j < me; ++j)
         if (e_norm(j) > 0)
-          rep.equality_residual =
-              std::max(rep.equality_residual, std::abs(e.row(j).dot(d)) / e_norm(j));
+          rep.equality_residual = std::max(rep.equality_residual, std::abs(ed(j)) / e_norm(j));
       if (rep.direction_margin >= band * tau && rep.equality_residual <= tau && dn > 0)
         dir_verdict = verdict::holds;
       if (!(rep.direction_margin > 0)) {  // decreases nothing for sure: not worth showing
@@ -347,12 +503,11 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
         if (lambda_unit(i) >= cut && lambda_unit(i) > 0) support.push_back(i);
       VectorXd lam_s = lambda_unit(support);
       lam_s /= lam_s.sum();
-      MatrixXd a_s = a_unit(support, Eigen::all);
-      detail::polish_dependence(a_s, e_unit, lam_s, mu_unit);
+      polish_dependence(select_rows(a_unit, support), e_unit, lam_s, mu_unit);
       lambda_unit.setZero();
       lambda_unit(support) = lam_s;
       const VectorXd r = a_unit.transpose() * lambda_unit + e_unit.transpose() * mu_unit;
-      cert.margin_bound = r.lpNorm<1>();
+      cert.margin_bound = r.template lpNorm<1>();
       if (cert.margin_bound <= tau) dir_verdict = verdict::fails;
     }
   }
@@ -381,7 +536,7 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
   if (cert.kind != mfcq_certificate_kind::none) {
     const double total = cert.kind == mfcq_certificate_kind::positive_dependence
                              ? cert.lambda.sum()
-                             : cert.mu.lpNorm<1>();
+                             : cert.mu.template lpNorm<1>();
     cert.lambda /= total;
     cert.mu /= total;
     for (Index i = 0; i < ma; ++i)
@@ -487,12 +642,93 @@ mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
   return rep;
 }
 
+/// A sparse block in canonical double storage (entries summed per position when the storage
+/// repeats them), with `cols` columns when it has no rows.
+template <class Derived>
+mfcq_sparse mfcq_sparse_block(const Eigen::SparseMatrixBase<Derived>& m, bool canonical,
+                              Index cols) {
+  if (m.rows() == 0) return mfcq_sparse(0, cols);
+  if (canonical) return m.derived().template cast<double>();
+  return summed_copy<double>(m);
+}
+
+}  // namespace detail
+
+/// MFCQ at a point from the Jacobian A of the active inequalities g_i(x) <= 0 (rows =
+/// gradients) and the Jacobian E of the equalities (may have 0 rows): holds when E has full
+/// row rank and some d has E d = 0, A d < 0. Decided on unit gradients by the LP
+/// max t s.t. A d + t 1 <= 0, E d = 0, -1 <= d <= 1, t <= 1 (t* > 0 iff such d exists), with
+/// the direction checked directly when it holds and a positive dependence from the LP duals
+/// (Motzkin's theorem of the alternative) when it fails. `labels`: empty, or one per row of
+/// A followed by one per row of E. Decided in double whatever the scalar.
+template <class DerivedA, class DerivedE>
+mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
+                       const Eigen::MatrixBase<DerivedE>& eq_jacobian,
+                       const mfcq_options& options = {}, std::vector<std::string> labels = {}) {
+  detail::check_scalar<DerivedA>();
+  detail::check_scalar<DerivedE>();
+  mfcq_report rep = detail::mfcq_start(ineq_jacobian.rows(), ineq_jacobian.cols(),
+                                       eq_jacobian.rows(), eq_jacobian.cols(), options, labels);
+  if (rep.result == verdict::invalid_input) return rep;
+  if (auto bad = detail::non_finite_message(ineq_jacobian, "inequality Jacobian"))
+    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
+  if (auto bad = detail::non_finite_message(eq_jacobian, "equality Jacobian"))
+    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
+  const Index n = rep.cols;
+  const Eigen::MatrixXd a = ineq_jacobian.rows() > 0
+                                ? Eigen::MatrixXd(ineq_jacobian.template cast<double>())
+                                : Eigen::MatrixXd(0, n);
+  const Eigen::MatrixXd e = eq_jacobian.rows() > 0
+                                ? Eigen::MatrixXd(eq_jacobian.template cast<double>())
+                                : Eigen::MatrixXd(0, n);
+  return detail::mfcq_run(a, e, options, labels, std::move(rep));
+}
+
 /// MFCQ with inequalities only (no equality constraint).
 template <class DerivedA>
 mfcq_report check_mfcq(const Eigen::MatrixBase<DerivedA>& ineq_jacobian,
                        const mfcq_options& options = {}, std::vector<std::string> labels = {}) {
   using Scalar = typename DerivedA::Scalar;
   const Eigen::Matrix<Scalar, Eigen::Dynamic, Eigen::Dynamic> none(0, ineq_jacobian.cols());
+  return check_mfcq(ineq_jacobian, none, options, std::move(labels));
+}
+
+/// MFCQ on sparse Jacobians (Eigen::SparseMatrix row- or column-major, a Map of a host's
+/// arrays, or an expression): the same verdicts, margin, direction and certificate as the
+/// dense check, with nothing dense of size rows x columns. The ranks (of E, and of [A; E] for
+/// comparison) are decided by the sparse LICQ core (sparse_licq.hpp), the LP by the LP
+/// engine's sparse path; the direction's projection on null(E) and the polish of the
+/// certificate use sparse LDL^T factorisations, and both are checked on the data afterwards.
+template <class DerivedA, class DerivedE>
+mfcq_report check_mfcq(const Eigen::SparseMatrixBase<DerivedA>& ineq_jacobian,
+                       const Eigen::SparseMatrixBase<DerivedE>& eq_jacobian,
+                       const mfcq_options& options = {}, std::vector<std::string> labels = {}) {
+  detail::check_scalar<DerivedA>();
+  detail::check_scalar<DerivedE>();
+  mfcq_report rep = detail::mfcq_start(ineq_jacobian.rows(), ineq_jacobian.cols(),
+                                       eq_jacobian.rows(), eq_jacobian.cols(), options, labels);
+  if (rep.result == verdict::invalid_input) return rep;
+  const auto a_storage = detail::scan_sparse_storage(ineq_jacobian, "the inequality Jacobian");
+  if (a_storage.error)
+    return detail::invalid_mfcq(rep, "invalid_sparse_structure", *a_storage.error);
+  const auto e_storage = detail::scan_sparse_storage(eq_jacobian, "the equality Jacobian");
+  if (e_storage.error)
+    return detail::invalid_mfcq(rep, "invalid_sparse_structure", *e_storage.error);
+  if (auto bad = detail::sparse_non_finite_message(ineq_jacobian, "inequality Jacobian"))
+    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
+  if (auto bad = detail::sparse_non_finite_message(eq_jacobian, "equality Jacobian"))
+    return detail::invalid_mfcq(rep, "non_finite_entry", *bad);
+  const Index n = rep.cols;
+  return detail::mfcq_run(detail::mfcq_sparse_block(ineq_jacobian, a_storage.canonical, n),
+                          detail::mfcq_sparse_block(eq_jacobian, e_storage.canonical, n), options,
+                          labels, std::move(rep));
+}
+
+/// Sparse MFCQ with inequalities only (no equality constraint).
+template <class DerivedA>
+mfcq_report check_mfcq(const Eigen::SparseMatrixBase<DerivedA>& ineq_jacobian,
+                       const mfcq_options& options = {}, std::vector<std::string> labels = {}) {
+  const Eigen::SparseMatrix<typename DerivedA::Scalar> none(0, ineq_jacobian.cols());
   return check_mfcq(ineq_jacobian, none, options, std::move(labels));
 }
 

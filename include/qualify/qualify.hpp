@@ -7,6 +7,7 @@
 #include <qualify/constraints.hpp>
 #include <qualify/model.hpp>
 #include <qualify/licq.hpp>
+#include <qualify/sparse_licq.hpp>
 #include <qualify/linear_cq.hpp>
 #include <qualify/matrix_market.hpp>
 #include <qualify/mps.hpp>
