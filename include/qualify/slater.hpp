@@ -390,8 +390,12 @@ inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::Vect
   p.ru = ru;
   p.cl = cl;
   p.cu = cu;
-  p.row_norm = Eigen::VectorXd::Zero(m);
-  for (Index i = 0; i < m; ++i) p.row_norm[i] = p.rows.row(i).norm();
+  // Scaled where squares would overflow (1e200 entries) and safe without columns (Eigen's
+  // sparse norm asserts on an empty row).
+  std::vector<double> norms;
+  std::vector<sparse_index> counts;
+  sparse_row_norms(p.A, norms, counts);
+  p.row_norm = Eigen::Map<const Eigen::VectorXd>(norms.data(), m);
   p.side_lower.assign(std::size_t(m), -1);
   p.side_upper.assign(std::size_t(m), -1);
   p.col_lower_side.assign(std::size_t(n), -1);

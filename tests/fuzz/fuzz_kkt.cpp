@@ -1,0 +1,66 @@
+// Fuzz target: check_kkt on a fuzzed model_at_point (multipliers estimated or given); a
+// certified KKT point is checked on the data.
+// SPDX-License-Identifier: MIT
+#include <qualify/kkt.hpp>
+
+#include <cmath>
+
+#include "fuzz_input.hpp"
+
+using namespace qualify_fuzz;
+using qualify::verdict;
+using ld = long double;
+
+extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
+  byte_source in(data, size);
+  const Index n = 1 + in.size(5), m = in.size(6);
+  qualify::model_at_point p;
+  p.x = in.vector(n);
+  p.objective_gradient = in.vector(n);
+  p.values = in.vector(m);
+  p.jacobian = in.matrix(m, n);
+  for (Index i = 0; i < m; ++i) {
+    p.types.push_back(in.flag() ? qualify::constraint_type::equality
+                                : qualify::constraint_type::inequality);
+    p.kinds.push_back(static_cast<qualify::constraint_kind>(in.byte() % 4));
+  }
+  p.convex_model = in.flag();
+  bool bad = !p.x.allFinite() || !p.objective_gradient.allFinite() || !p.values.allFinite() ||
+             !p.jacobian.allFinite();
+  if (in.flag()) {  // a symmetric Hessian of f
+    const Eigen::MatrixXd h = in.matrix(n, n);
+    p.objective_hessian = Eigen::MatrixXd((h + h.transpose()) / 2);
+    bad = bad || !p.objective_hessian->allFinite();
+  }
+  const bool given = in.flag();
+  const Eigen::VectorXd multipliers = in.vector(m);
+  if (given) bad = bad || !multipliers.allFinite();
+
+  const qualify::kkt_report rep =
+      given ? qualify::check_kkt(p, multipliers) : qualify::check_kkt(p);
+  QUALIFY_FUZZ_ASSERT((rep.result == verdict::invalid_input) == bad);
+  if (bad) return 0;
+  QUALIFY_FUZZ_ASSERT(rep.result == verdict::holds || rep.result == verdict::fails ||
+                      rep.result == verdict::undecided);
+  QUALIFY_FUZZ_ASSERT(rep.multipliers.size() == m && rep.multipliers.allFinite());
+  for (const auto* r : {&rep.stationarity, &rep.primal, &rep.dual, &rep.complementarity})
+    QUALIFY_FUZZ_ASSERT(std::isfinite(r->scaled) && std::isfinite(r->raw) && r->scaled >= 0);
+  if (rep.result != verdict::holds) return 0;
+
+  // A certified point: every part holds, inequality multipliers are not negative beyond the
+  // tolerance, and g + J^T y is small against the size of its terms (a looser scale than any
+  // the library may use, with a factor 10).
+  for (const auto* r : {&rep.stationarity, &rep.primal, &rep.dual, &rep.complementarity})
+    QUALIFY_FUZZ_ASSERT(r->result == verdict::holds);
+  const Eigen::Matrix<ld, Eigen::Dynamic, 1> y = rep.multipliers.cast<ld>();
+  Eigen::Matrix<ld, Eigen::Dynamic, 1> r = p.objective_gradient.cast<ld>();
+  ld scale = 1 + p.objective_gradient.cast<ld>().cwiseAbs().maxCoeff();
+  for (Index i = 0; i < m; ++i) {
+    r += y(i) * p.jacobian.row(i).cast<ld>().transpose();
+    scale += std::abs(y(i)) * p.jacobian.row(i).cast<ld>().cwiseAbs().maxCoeff();
+  }
+  const qualify::kkt_options defaults;
+  QUALIFY_FUZZ_ASSERT(r.cwiseAbs().maxCoeff() <=
+                      10 * ld(defaults.stationarity_tolerance) * scale * ld(std::sqrt(double(n))));
+  return 0;
+}
