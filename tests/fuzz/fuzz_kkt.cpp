@@ -3,6 +3,7 @@
 // SPDX-License-Identifier: MIT
 #include <qualify/kkt.hpp>
 
+#include <algorithm>
 #include <cmath>
 
 #include "fuzz_input.hpp"
@@ -43,9 +44,22 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   QUALIFY_FUZZ_ASSERT(rep.result == verdict::holds || rep.result == verdict::fails ||
                       rep.result == verdict::undecided);
   QUALIFY_FUZZ_ASSERT(rep.multipliers.size() == m && rep.multipliers.allFinite());
-  for (const auto* r : {&rep.stationarity, &rep.primal, &rep.dual, &rep.complementarity})
-    QUALIFY_FUZZ_ASSERT(std::isfinite(r->scaled) && std::isfinite(r->raw) && r->scaled >= 0);
+  // Residual figures are never NaN; they overflow to +inf only for entries near the top of
+  // double's range (found by this target: values of 3e307), and then nothing holds.
+  const double largest = std::max({p.x.lpNorm<Eigen::Infinity>(),
+                                   p.objective_gradient.lpNorm<Eigen::Infinity>(),
+                                   m > 0 ? p.values.lpNorm<Eigen::Infinity>() : 0.0,
+                                   m > 0 ? p.jacobian.lpNorm<Eigen::Infinity>() : 0.0,
+                                   p.objective_hessian ? p.objective_hessian->lpNorm<Eigen::Infinity>()
+                                                       : 0.0});
+  bool overflowed = false;
+  for (const auto* r : {&rep.stationarity, &rep.primal, &rep.dual, &rep.complementarity}) {
+    QUALIFY_FUZZ_ASSERT(!std::isnan(r->scaled) && !std::isnan(r->raw) && r->scaled >= 0);
+    overflowed = overflowed || std::isinf(r->scaled) || std::isinf(r->raw);
+  }
+  QUALIFY_FUZZ_ASSERT(!overflowed || largest > 1e300);
   if (rep.result != verdict::holds) return 0;
+  QUALIFY_FUZZ_ASSERT(!overflowed);
 
   // A certified point: every part holds, inequality multipliers are not negative beyond the
   // tolerance, and g + J^T y is small against the size of its terms (a looser scale than any

@@ -29,24 +29,25 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   QUALIFY_FUZZ_ASSERT(rep.result == verdict::holds || rep.result == verdict::fails ||
                       rep.result == verdict::undecided);
   if (rep.equality_licq) assert_licq_report(e, *rep.equality_licq);
-  if (rep.licq) {
-    Eigen::MatrixXd stacked(ma + me, n);
-    stacked << a, e;
+  if (rep.licq) {  // a block without rows may have any width
+    Eigen::MatrixXd stacked(ma + me, cols);
+    if (ma > 0) stacked.topRows(ma) = a;
+    if (me > 0) stacked.bottomRows(me) = e;
     assert_licq_report(stacked, *rep.licq);
   }
 
   const double tau = rep.relative_threshold;
-  const double eq_tau = double(std::max(me, n)) * std::numeric_limits<double>::epsilon();
+  const double eq_tau = double(std::max(me, cols)) * std::numeric_limits<double>::epsilon();
   const Eigen::VectorXd e_sv = row_singular_values(e);
   auto norm = [](const Eigen::MatrixXd& m, Index i) { return m.row(i).cast<ld>().norm(); };
 
   if (rep.result == verdict::holds) {
     // E has full row rank, and the direction decreases every inequality and keeps the
     // equalities, on the data as given.
-    if (me > 0) QUALIFY_FUZZ_ASSERT(me <= n && e_sv(me - 1) * svd_margin >= 10 * eq_tau);
+    if (me > 0) QUALIFY_FUZZ_ASSERT(me <= cols && e_sv(me - 1) * svd_margin >= 10 * eq_tau);
     if (ma > 0) {
       const Eigen::VectorXd& d = rep.direction;
-      QUALIFY_FUZZ_ASSERT(d.size() == n && d.allFinite());
+      QUALIFY_FUZZ_ASSERT(d.size() == cols && d.allFinite());
       QUALIFY_FUZZ_ASSERT(d.lpNorm<Eigen::Infinity>() <= 1 + 1e-12);
       for (Index i = 0; i < ma; ++i)
         QUALIFY_FUZZ_ASSERT(a.row(i).cast<ld>().dot(d.cast<ld>()) / norm(a, i) <= -ld(tau));
@@ -65,7 +66,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   QUALIFY_FUZZ_ASSERT(cert.lambda.size() == ma && cert.mu.size() == me);
   QUALIFY_FUZZ_ASSERT(cert.lambda.allFinite() && cert.mu.allFinite());
   if (cert.kind == qualify::mfcq_certificate_kind::equality_dependence) {
-    QUALIFY_FUZZ_ASSERT(me > n || e_sv(me - 1) <= svd_margin * eq_tau);
+    QUALIFY_FUZZ_ASSERT(me > cols || e_sv(me - 1) <= svd_margin * eq_tau);
     QUALIFY_FUZZ_ASSERT(cert.mu.lpNorm<1>() > 0);
     return 0;
   }
@@ -74,7 +75,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   // weighted by lambda_i ||a_i|| summing to 1, bounds t* by its 1-norm.
   for (Index i = 0; i < ma; ++i)
     if (cert.lambda(i) > 0 && norm(a, i) == 0) return 0;
-  Eigen::Matrix<ld, Eigen::Dynamic, 1> r = Eigen::Matrix<ld, Eigen::Dynamic, 1>::Zero(n);
+  Eigen::Matrix<ld, Eigen::Dynamic, 1> r = Eigen::Matrix<ld, Eigen::Dynamic, 1>::Zero(cols);
   ld weight = 0, mu_size = 0;
   for (Index i = 0; i < ma; ++i) {
     const ld w = ld(cert.lambda(i)) * norm(a, i);
@@ -89,6 +90,6 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
     }
   QUALIFY_FUZZ_ASSERT(weight > 0);
   const ld bound = r.lpNorm<1>() / weight;
-  QUALIFY_FUZZ_ASSERT(bound <= ld(svd_margin * tau) + 1e-12L * ld(n) * (1 + mu_size / weight));
+  QUALIFY_FUZZ_ASSERT(bound <= ld(svd_margin * tau) + 1e-12L * ld(cols) * (1 + mu_size / weight));
   return 0;
 }
