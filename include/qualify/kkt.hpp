@@ -1465,8 +1465,7 @@ inline kkt_report kkt_callback(const callback_model& model, const Eigen::VectorX
 /// use sparse products, and only the active rows are ever copied dense, within
 /// kkt_options::active_dense_limit (above it: no estimate, no second order, a finding says so).
 template <class Jacobian>
-kkt_report check_kkt(const basic_model_at_point<Jacobian>& point,
-                     const kkt_options& options = {}) {
+kkt_report check_kkt(const basic_model_at_point<Jacobian>& point, const kkt_options& options = {}) {
   return detail::kkt_run(point, nullptr, options);
 }
 
