@@ -8,6 +8,7 @@
 #include <functional>
 #include <memory>
 #include <qualify/kkt.hpp>
+#include <random>
 #include <string>
 #include <unsupported/Eigen/AutoDiff>
 #include <utility>
@@ -702,7 +703,7 @@ inline std::vector<hs_problem> hock_schittkowski() {
 
 /// A point where every row is active (x = 0, values 0) and grad f = -G^T lambda_star.
 inline model_at_point vertex(const MatrixXd& g, const VectorXd& lambda_star,
-                      const std::vector<constraint_type>& types) {
+                             const std::vector<constraint_type>& types) {
   model_at_point p;
   p.x = VectorXd::Zero(g.cols());
   p.objective_gradient = -g.transpose() * lambda_star;
@@ -728,6 +729,97 @@ inline model_at_point quadratic_at_origin(const MatrixXd& hessian, bool floor) {
     p.types = {constraint_type::inequality};
     p.kinds = {constraint_kind::affine};
   }
+  return p;
+}
+
+/// H. W. Kuhn and A. W. Tucker, "Nonlinear programming", Proc. Second Berkeley Symposium on
+/// Mathematical Statistics and Probability, 1951: min -x1 s.t. x2 - (1 - x1)^3 <= 0, -x2 <= 0;
+/// (1, 0) is the minimiser, and the active gradients (0, 1) and (0, -1) cannot balance
+/// grad f = (-1, 0): no CQ holds and no multipliers exist.
+inline hs_problem kuhn_tucker_cusp() {
+  hs_problem cusp;
+  cusp.n = 2;
+  cusp.f = [](const ad_vector& x) { return ad(-x(0)); };
+  cusp.constraints = {
+      le("cusp", constraint_kind::nonlinear,
+         [](const ad_vector& x) { return ad(x(1) - (1 - x(0)) * (1 - x(0)) * (1 - x(0))); }),
+      le("floor", constraint_kind::affine, [](const ad_vector& x) { return ad(-x(1)); })};
+  return cusp;
+}
+
+/// min x s.t. x^2 <= 0 at its only feasible point (DESIGN.md, section 2): a convex model
+/// without a Slater point; the gradient of x^2 vanishes at 0, so no multiplier balances f' = 1
+/// (hand-checked).
+inline model_at_point square_at_zero() {
+  model_at_point p;
+  p.x = vec({0});
+  p.objective_gradient = vec({1});
+  p.objective_hessian = MatrixXd::Zero(1, 1);
+  p.values = vec({0});
+  p.jacobian = MatrixXd::Zero(1, 1);
+  p.types = {constraint_type::inequality};
+  p.kinds = {constraint_kind::convex};
+  p.labels = {"square"};
+  p.hessians = {MatrixXd::Constant(1, 1, 2.0)};
+  p.convex_model = true;
+  return p;
+}
+
+/// The apex of a square pyramid, x3 >= |x1|, x3 >= |x2|: four planes through the apex of R^3
+/// whose gradients (+-1, 0, -1), (0, +-1, -1) are dependent (g4 = g1 + g2 - g3), and
+/// d = (0, 0, 1) decreases all four (MFCQ). With grad f = -(1 g1 + 2 g2 + 3 g3 + 1 g4) =
+/// (1, -2, 7) the multipliers solve l1 - l2 = -1, l3 - l4 = 2, l1 + l2 + l3 + l4 = 7, l >= 0
+/// (hand-derived): the segment l1 in [0, 2], l2 = l1 + 1 in [1, 3], l4 = 2 - l1 in [0, 2],
+/// l3 = l4 + 2 in [2, 4].
+inline model_at_point square_pyramid() {
+  MatrixXd g(4, 3);
+  g << 1, 0, -1, -1, 0, -1, 0, 1, -1, 0, -1, -1;
+  model_at_point p =
+      vertex(g, vec({1, 2, 3, 1}), std::vector<constraint_type>(4, constraint_type::inequality));
+  p.labels = {"east", "west", "north", "south"};
+  return p;
+}
+
+/// Seven planes through a point of R^4: random integer gradients whose last entry is -1, so
+/// that d = (0, 0, 0, 1) decreases them all (MFCQ); grad f from a positive combination; a
+/// three-dimensional multiplier polytope. Seeded: the same data every run.
+inline model_at_point seven_planes() {
+  std::mt19937 rng(20261207);
+  std::uniform_int_distribution<int> entry(-3, 3), weight(1, 5);
+  MatrixXd g(7, 4);
+  VectorXd lambda(7);
+  for (Index i = 0; i < 7; ++i) {
+    for (Index j = 0; j < 3; ++j) g(i, j) = entry(rng);
+    g(i, 3) = -1;
+    lambda(i) = weight(rng);
+  }
+  return vertex(g, lambda, std::vector<constraint_type>(7, constraint_type::inequality));
+}
+
+/// min x1 + x2^2 s.t. x1 = 0 (twice) at 0: mu1 + mu2 = -1 is all that is fixed, so both
+/// multipliers are unbounded (hand-checked).
+inline model_at_point equality_twice() {
+  MatrixXd g(2, 2);
+  g << 1, 0, 1, 0;
+  model_at_point p =
+      vertex(g, vec({-0.5, -0.5}), std::vector<constraint_type>(2, constraint_type::equality));
+  p.objective_hessian = MatrixXd(vec({0, 2}).asDiagonal());
+  p.convex_model = false;
+  return p;
+}
+
+/// The README's farm tank with two rows: grad f = (8, 8) = 8 (1, 1), only `demand` active
+/// (hand-checked: multiplier 8).
+inline model_at_point tank_point() {
+  model_at_point p;
+  p.x = vec({4, 2});
+  p.objective_gradient = vec({8, 8});
+  p.objective_hessian = MatrixXd(vec({2, 4}).asDiagonal());
+  p.values = vec({0, -3});
+  p.jacobian = (MatrixXd(2, 2) << -1, -1, 0, 1).finished();
+  p.types.assign(2, constraint_type::inequality);
+  p.kinds.assign(2, constraint_kind::affine);
+  p.labels = {"demand", "roof"};
   return p;
 }
 

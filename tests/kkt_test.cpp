@@ -174,17 +174,8 @@ TEST_CASE("second order: the Hessian of the Lagrangian by differences agrees wit
 
 TEST_CASE("published counter-examples: no CQ, no multipliers, and KKT says nothing") {
   SUBCASE("Kuhn and Tucker (1951): min -x1 s.t. x2 - (1 - x1)^3 <= 0, -x2 <= 0 at (1, 0)") {
-    // H. W. Kuhn and A. W. Tucker, "Nonlinear programming", Proc. Second Berkeley Symposium on
-    // Mathematical Statistics and Probability, 1951: (1, 0) is the minimiser, the active
-    // gradients (0, 1) and (0, -1) cannot balance grad f = (-1, 0) (hand-checked: the least
-    // residual is (-1, 0), norm 1).
-    hs_problem cusp;
-    cusp.n = 2;
-    cusp.f = [](const ad_vector& x) { return ad(-x(0)); };
-    cusp.constraints = {
-        le("cusp", constraint_kind::nonlinear,
-           [](const ad_vector& x) { return ad(x(1) - (1 - x(0)) * (1 - x(0)) * (1 - x(0))); }),
-        le("floor", constraint_kind::affine, [](const ad_vector& x) { return ad(-x(1)); })};
+    // The least residual is (-1, 0), norm 1 (hand-checked; see kuhn_tucker_cusp).
+    const hs_problem cusp = kuhn_tucker_cusp();
     const auto r = check_kkt(model_of(cusp), vec({1, 0}));
     QUALIFY_CHECK_VERDICT(r, verdict::fails);
     QUALIFY_CHECK_CLASSIFICATION(r, kkt_classification::no_cq_holds);
@@ -218,19 +209,7 @@ TEST_CASE("published counter-examples: no CQ, no multipliers, and KKT says nothi
     CHECK(r.stationarity_norm == doctest::Approx(2).epsilon(1e-12));
   }
   SUBCASE("min x s.t. x^2 <= 0 at its only feasible point (DESIGN.md, section 2)") {
-    // A convex model without a Slater point: the gradient of x^2 vanishes at 0, so no
-    // multiplier balances f' = 1 (hand-checked).
-    model_at_point p;
-    p.x = vec({0});
-    p.objective_gradient = vec({1});
-    p.objective_hessian = MatrixXd::Zero(1, 1);
-    p.values = vec({0});
-    p.jacobian = MatrixXd::Zero(1, 1);
-    p.types = {constraint_type::inequality};
-    p.kinds = {constraint_kind::convex};
-    p.labels = {"square"};
-    p.hessians = {MatrixXd::Constant(1, 1, 2.0)};
-    p.convex_model = true;
+    const model_at_point p = square_at_zero();
     const auto r = check_kkt(p);
     QUALIFY_CHECK_CLASSIFICATION(r, kkt_classification::no_cq_holds);
     CHECK(r.licq.zero_rows == std::vector<Index>{0});
@@ -316,16 +295,9 @@ void check_ranges_against_glpk(const kkt_report& r, const model_at_point& p) {
 
 TEST_CASE("a degenerate vertex: LICQ fails, MFCQ holds, the multiplier ranges match GLPK") {
   SUBCASE("the apex of a square pyramid, x3 >= |x1|, x3 >= |x2|") {
-    // Four planes through the apex of R^3: their gradients (+-1, 0, -1), (0, +-1, -1) are
-    // dependent (g4 = g1 + g2 - g3), and d = (0, 0, 1) decreases all four (MFCQ). With
-    // grad f = -(1 g1 + 2 g2 + 3 g3 + 1 g4) = (1, -2, 7) the multipliers solve
-    // l1 - l2 = -1, l3 - l4 = 2, l1 + l2 + l3 + l4 = 7, l >= 0 (hand-derived): the segment
-    // l1 in [0, 2], l2 = l1 + 1 in [1, 3], l4 = 2 - l1 in [0, 2], l3 = l4 + 2 in [2, 4].
-    MatrixXd g(4, 3);
-    g << 1, 0, -1, -1, 0, -1, 0, 1, -1, 0, -1, -1;
-    model_at_point p =
-        vertex(g, vec({1, 2, 3, 1}), std::vector<constraint_type>(4, constraint_type::inequality));
-    p.labels = {"east", "west", "north", "south"};
+    // The segment l1 in [0, 2], l2 in [1, 3], l3 in [2, 4], l4 in [0, 2] (hand-derived; see
+    // square_pyramid).
+    const model_at_point p = square_pyramid();
     const auto r = check_kkt(p);
     QUALIFY_CHECK_VERDICT(r, verdict::holds);
     CHECK(r.licq.result == verdict::fails);
@@ -348,19 +320,7 @@ TEST_CASE("a degenerate vertex: LICQ fails, MFCQ holds, the multiplier ranges ma
     CHECK(r.weakly_active.empty());
   }
   SUBCASE("seven planes through a point of R^4: a three-dimensional multiplier polytope") {
-    // Random integer gradients whose last entry is -1, so that d = (0, 0, 0, 1) decreases
-    // them all (MFCQ); grad f from a positive combination. Seeded: the same data every run.
-    std::mt19937 rng(20261207);
-    std::uniform_int_distribution<int> entry(-3, 3), weight(1, 5);
-    MatrixXd g(7, 4);
-    VectorXd lambda(7);
-    for (Index i = 0; i < 7; ++i) {
-      for (Index j = 0; j < 3; ++j) g(i, j) = entry(rng);
-      g(i, 3) = -1;
-      lambda(i) = weight(rng);
-    }
-    const model_at_point p =
-        vertex(g, lambda, std::vector<constraint_type>(7, constraint_type::inequality));
+    const model_at_point p = seven_planes();
     const auto r = check_kkt(p);
     QUALIFY_CHECK_VERDICT(r, verdict::holds);
     CHECK(r.licq.result == verdict::fails);
@@ -371,14 +331,8 @@ TEST_CASE("a degenerate vertex: LICQ fails, MFCQ holds, the multiplier ranges ma
     check_ranges_against_glpk(r, p);
   }
   SUBCASE("an equality imported twice: LICQ and MFCQ fail, the linear CQ holds") {
-    // min x1 + x2^2 s.t. x1 = 0 (twice) at 0: mu1 + mu2 = -1 is all that is fixed, so both
-    // multipliers are unbounded (hand-checked; GLPK reports unbounded LPs).
-    MatrixXd g(2, 2);
-    g << 1, 0, 1, 0;
-    model_at_point p =
-        vertex(g, vec({-0.5, -0.5}), std::vector<constraint_type>(2, constraint_type::equality));
-    p.objective_hessian = MatrixXd(vec({0, 2}).asDiagonal());
-    p.convex_model = false;
+    // Both multipliers unbounded (hand-checked; GLPK reports unbounded LPs).
+    const model_at_point p = equality_twice();
     const auto r = check_kkt(p);
     QUALIFY_CHECK_VERDICT(r, verdict::holds);
     CHECK(r.mfcq_result == verdict::fails);
@@ -716,18 +670,7 @@ TEST_CASE("a residual within the band is undecided, not a verdict either way") {
 }
 
 TEST_CASE("bad input is an invalid_input report naming the entry") {
-  const auto base = [] {
-    model_at_point p;
-    p.x = vec({4, 2});
-    p.objective_gradient = vec({8, 8});
-    p.objective_hessian = MatrixXd(vec({2, 4}).asDiagonal());
-    p.values = vec({0, -3});
-    p.jacobian = (MatrixXd(2, 2) << -1, -1, 0, 1).finished();
-    p.types.assign(2, constraint_type::inequality);
-    p.kinds.assign(2, constraint_kind::affine);
-    p.labels = {"demand", "roof"};
-    return p;
-  };
+  const auto base = [] { return tank_point(); };
   REQUIRE(check_kkt(base()).result == verdict::holds);
   const auto expect_invalid = [](const kkt_report& r, const std::string& code,
                                  const std::string& words) {

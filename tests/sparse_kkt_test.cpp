@@ -115,8 +115,7 @@ void check_agreement(const kkt_report& d, const kkt_report& s) {
   if (std::isnan(d.stationarity_norm))
     CHECK(std::isnan(s.stationarity_norm));
   else
-    QUALIFY_CHECK_CLOSE(s.stationarity_norm, d.stationarity_norm,
-                        1e-2 * d.stationarity.threshold);
+    QUALIFY_CHECK_CLOSE(s.stationarity_norm, d.stationarity_norm, 1e-2 * d.stationarity.threshold);
   same_residual(d.stationarity, s.stationarity);
   same_residual(d.primal, s.primal);
   same_residual(d.dual, s.dual);
@@ -228,74 +227,42 @@ TEST_CASE("sparse Jacobians agree with the dense path on the Hock-Schittkowski p
 
 TEST_CASE("sparse Jacobians agree with the dense path on degenerate and counter-example points") {
   SUBCASE("the apex of a square pyramid: LICQ fails, multiplier ranges by the ratio test") {
-    MatrixXd g(4, 3);
-    g << 1, 0, -1, -1, 0, -1, 0, 1, -1, 0, -1, -1;
-    model_at_point p =
-        vertex(g, vec({1, 2, 3, 1}), std::vector<constraint_type>(4, constraint_type::inequality));
-    p.labels = {"east", "west", "north", "south"};
+    const model_at_point p = square_pyramid();
     check_all_storages(p);
     const auto r = check_kkt(sparse_of<Eigen::ColMajor>(p));
-    // Hand-derived in kkt_test.cpp: l1 in [0, 2], l2 in [1, 3], l3 in [2, 4], l4 in [0, 2].
+    // Hand-derived (square_pyramid): l1 in [0, 2], l2 in [1, 3], l3 in [2, 4], l4 in [0, 2].
+    const std::pair<double, double> hand[] = {{0, 2}, {1, 3}, {2, 4}, {0, 2}};
     CHECK(r.multipliers_unique == verdict::fails);
-    CHECK(r.ranges.size() == 4);
+    REQUIRE(r.ranges.size() == 4);
+    for (const auto& range : r.ranges) {
+      QUALIFY_CHECK_CLOSE(range.lower, hand[range.row].first, 1e-7);
+      QUALIFY_CHECK_CLOSE(range.upper, hand[range.row].second, 1e-7);
+    }
     QUALIFY_CHECK_CLASSIFICATION(r, kkt_classification::global_min);
   }
   SUBCASE("seven planes through a point of R^4: the ranges by the LP engine") {
-    std::mt19937 rng(20261207);  // the seed of kkt_test.cpp's case
-    std::uniform_int_distribution<int> entry(-3, 3), weight(1, 5);
-    MatrixXd g(7, 4);
-    VectorXd lambda(7);
-    for (Index i = 0; i < 7; ++i) {
-      for (Index j = 0; j < 3; ++j) g(i, j) = entry(rng);
-      g(i, 3) = -1;
-      lambda(i) = weight(rng);
-    }
-    check_all_storages(
-        vertex(g, lambda, std::vector<constraint_type>(7, constraint_type::inequality)));
+    check_all_storages(seven_planes());
   }
   SUBCASE("an equality imported twice: multipliers unbounded, MFCQ fails") {
-    MatrixXd g(2, 2);
-    g << 1, 0, 1, 0;
-    model_at_point p =
-        vertex(g, vec({-0.5, -0.5}), std::vector<constraint_type>(2, constraint_type::equality));
-    p.objective_hessian = MatrixXd(vec({0, 2}).asDiagonal());
-    p.convex_model = false;
-    check_all_storages(p);
+    check_all_storages(equality_twice());
   }
   SUBCASE("quadratics at the origin: every second-order outcome") {
-    for (const auto& [d, floor] :
-         {std::pair{vec({2, -2}), false}, std::pair{vec({2, 0}), false},
-          std::pair{vec({2, -2}), true}, std::pair{vec({-2, 0}), true},
-          std::pair{vec({2, 2}), true}}) {
+    for (const auto& [d, floor] : {std::pair{vec({2, -2}), false}, std::pair{vec({2, 0}), false},
+                                   std::pair{vec({2, -2}), true}, std::pair{vec({-2, 0}), true},
+                                   std::pair{vec({2, 2}), true}}) {
       CAPTURE(d.transpose());
       CAPTURE(floor);
       check_all_storages(quadratic_at_origin(MatrixXd(d.asDiagonal()), floor));
     }
   }
   SUBCASE("min x s.t. x^2 <= 0: a zero gradient, no CQ, no multipliers") {
-    model_at_point p;
-    p.x = vec({0});
-    p.objective_gradient = vec({1});
-    p.objective_hessian = MatrixXd::Zero(1, 1);
-    p.values = vec({0});
-    p.jacobian = MatrixXd::Zero(1, 1);
-    p.types = {constraint_type::inequality};
-    p.kinds = {constraint_kind::convex};
-    p.hessians = {MatrixXd::Constant(1, 1, 2.0)};
-    p.convex_model = true;
+    const model_at_point p = square_at_zero();
     check_all_storages(p);
     QUALIFY_CHECK_CLASSIFICATION(check_kkt(sparse_of<Eigen::RowMajor>(p)),
                                  kkt_classification::no_cq_holds);
   }
   SUBCASE("Kuhn and Tucker (1951): the cusp, MFCQ decided by its LP") {
-    hs_problem cusp;
-    cusp.n = 2;
-    cusp.f = [](const ad_vector& x) { return ad(-x(0)); };
-    cusp.constraints = {
-        le("cusp", constraint_kind::nonlinear,
-           [](const ad_vector& x) { return ad(x(1) - (1 - x(0)) * (1 - x(0)) * (1 - x(0))); }),
-        le("floor", constraint_kind::affine, [](const ad_vector& x) { return ad(-x(1)); })};
-    const model_at_point p = hs_point(cusp, vec({1, 0}));
+    const model_at_point p = hs_point(kuhn_tucker_cusp(), vec({1, 0}));
     check_all_storages(p);
     const auto r = check_kkt(sparse_of<Eigen::ColMajor>(p));
     QUALIFY_CHECK_CLASSIFICATION(r, kkt_classification::no_cq_holds);
@@ -557,16 +524,7 @@ TEST_CASE("second order above active_dense_limit is not checked, and says which 
 }
 
 TEST_CASE("sparse storage: repeated entries are summed, malformed storage is invalid input") {
-  // The README's farm tank (kkt_test.cpp): two inequalities in two variables, demand active.
-  model_at_point tank;
-  tank.x = vec({4, 2});
-  tank.objective_gradient = vec({8, 8});
-  tank.objective_hessian = MatrixXd(vec({2, 4}).asDiagonal());
-  tank.values = vec({0, -3});
-  tank.jacobian = (MatrixXd(2, 2) << -1, -1, 0, 1).finished();
-  tank.types.assign(2, constraint_type::inequality);
-  tank.kinds.assign(2, constraint_kind::affine);
-  tank.labels = {"demand", "roof"};
+  const model_at_point tank = tank_point();  // two inequalities in two variables
   const auto sparse = sparse_of<Eigen::ColMajor>(tank);
   REQUIRE(check_kkt(sparse).result == verdict::holds);
   const auto expect_invalid = [](const kkt_report& r, const std::string& code,
@@ -606,7 +564,8 @@ TEST_CASE("sparse storage: repeated entries are summed, malformed storage is inv
   SUBCASE("an index out of range") {
     auto bad = sparse;
     bad.jacobian.innerIndexPtr()[0] = 7;
-    expect_invalid(check_kkt(bad), "invalid_sparse_structure", "jacobian column 0 has an entry in row 7");
+    expect_invalid(check_kkt(bad), "invalid_sparse_structure",
+                   "jacobian column 0 has an entry in row 7");
   }
   SUBCASE("non-finite entries, named as in the dense path") {
     auto bad = sparse;
