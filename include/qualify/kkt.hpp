@@ -16,9 +16,11 @@
 #include <qualify/mfcq.hpp>
 #include <qualify/model.hpp>
 #include <qualify/report.hpp>
+#include <qualify/sparse_licq.hpp>
 #include <string>
 #include <string_view>
 #include <tuple>
+#include <type_traits>
 #include <utility>
 #include <vector>
 
@@ -149,6 +151,12 @@ struct kkt_options {
   /// Multiplier ranges (two LPs per multiplier that a dependence involves) are computed when
   /// at most this many multipliers are involved; beyond, uniqueness is left undecided.
   Index range_limit = 500;
+  /// Sparse Jacobians (sparse_model_at_point): the multiplier estimate and the null spaces of
+  /// second order work on a dense copy of the q active rows (q x n; never of the whole
+  /// Jacobian), made only when q * n <= this (16M entries, 128 MiB of doubles, as
+  /// licq_options::sparse_dense_limit). Above it the multipliers are not estimated (give them,
+  /// or the verdict is undecided) and second order is not checked; a finding names the limit.
+  std::size_t active_dense_limit = std::size_t(1) << 24;
   /// Rank decisions: LICQ and the null-space bases (`licq.activity` is replaced by `activity`).
   licq_options licq;
   /// MFCQ, checked when LICQ does not hold (`mfcq.licq` is replaced by `licq`).
@@ -287,6 +295,87 @@ inline kkt_report invalid_kkt(kkt_report rep, std::string code, std::string mess
   return rep;
 }
 
+// The few operations on the Jacobian that differ between dense and sparse points.
+
+template <class Jacobian>
+inline constexpr bool is_sparse_jacobian = !std::is_same_v<Jacobian, Eigen::MatrixXd>;
+
+/// 2-norms of the rows, column by column (a row of a column-major matrix is strided); a row
+/// whose squares overflow is measured again with the scaled norm.
+inline Eigen::VectorXd jacobian_row_norms(const Eigen::MatrixXd& j) {
+  Eigen::VectorXd norms = j.rowwise().squaredNorm().cwiseSqrt();
+  for (Index i = 0; i < j.rows(); ++i)
+    if (!std::isfinite(norms(i))) norms(i) = j.row(i).stableNorm();
+  return norms;
+}
+
+template <int Options>
+Eigen::VectorXd jacobian_row_norms(const Eigen::SparseMatrix<double, Options>& j) {
+  std::vector<double> norms;
+  std::vector<sparse_index> counts;
+  sparse_row_norms(j, norms, counts);
+  return Eigen::Map<const Eigen::VectorXd>(norms.data(), Index(norms.size()));
+}
+
+/// The rows `rows` of the Jacobian in that order: dense for a dense Jacobian, sparse
+/// (row-major) for a sparse one (MFCQ's input).
+inline Eigen::MatrixXd jacobian_rows(const Eigen::MatrixXd& j, const std::vector<Index>& rows) {
+  return j(rows, Eigen::all);
+}
+
+/// Position of each row of an m-row Jacobian in `rows` (-1: not there).
+inline std::vector<Index> positions_of(Index m, const std::vector<Index>& rows) {
+  std::vector<Index> at(std::size_t(m), -1);
+  for (std::size_t k = 0; k < rows.size(); ++k) at[std::size_t(rows[k])] = Index(k);
+  return at;
+}
+
+template <int Options>
+Eigen::SparseMatrix<double, Eigen::RowMajor> jacobian_rows(
+    const Eigen::SparseMatrix<double, Options>& j, const std::vector<Index>& rows) {
+  const std::vector<Index> at = positions_of(j.rows(), rows);
+  std::vector<Eigen::Triplet<double>> entries;
+  for (Index c = 0; c < j.outerSize(); ++c)
+    for (typename Eigen::SparseMatrix<double, Options>::InnerIterator it(j, c); it; ++it)
+      if (const Index k = at[std::size_t(it.row())]; k >= 0)
+        entries.emplace_back(k, it.col(), it.value());
+  Eigen::SparseMatrix<double, Eigen::RowMajor> out(Index(rows.size()), j.cols());
+  out.setFromTriplets(entries.begin(), entries.end());
+  return out;
+}
+
+/// The rows `rows` as a dense |rows| x n block (for a sparse Jacobian the caller has checked
+/// kkt_options::active_dense_limit).
+inline Eigen::MatrixXd dense_rows(const Eigen::MatrixXd& j, const std::vector<Index>& rows) {
+  return jacobian_rows(j, rows);
+}
+
+template <int Options>
+Eigen::MatrixXd dense_rows(const Eigen::SparseMatrix<double, Options>& j,
+                           const std::vector<Index>& rows) {
+  const std::vector<Index> at = positions_of(j.rows(), rows);
+  Eigen::MatrixXd out = Eigen::MatrixXd::Zero(Index(rows.size()), j.cols());
+  for (Index c = 0; c < j.outerSize(); ++c)
+    for (typename Eigen::SparseMatrix<double, Options>::InnerIterator it(j, c); it; ++it)
+      if (const Index k = at[std::size_t(it.row())]; k >= 0) out(k, it.col()) += it.value();
+  return out;
+}
+
+/// Whether q rows of a Jacobian with n columns may be copied dense: always for a dense
+/// Jacobian (they are dense already), within kkt_options::active_dense_limit for a sparse one.
+template <class Jacobian>
+bool active_block_fits(Index q, Index n, const kkt_options& o) {
+  if constexpr (!is_sparse_jacobian<Jacobian>) return true;
+  return q == 0 || std::size_t(n) <= o.active_dense_limit / std::size_t(q);
+}
+
+/// "the active block q x n exceeds kkt_options::active_dense_limit (L entries)"
+inline std::string active_block_too_large(Index q, Index n, const kkt_options& o) {
+  return "the dense copy of the " + std::to_string(q) + " x " + std::to_string(n) +
+         " active rows of the sparse Jacobian would exceed active_dense_limit (" +
+         std::to_string(o.active_dense_limit) + " entries)";
+}
+
 /// The least-squares solution on the passive columns of r (minimum norm when they are
 /// dependent), zero elsewhere: argmin ||r_P s_P + c||_2.
 inline Eigen::VectorXd passive_solve(const Eigen::MatrixXd& r, const Eigen::VectorXd& c,
@@ -398,10 +487,11 @@ inline bounded_least_squares_result bounded_least_squares(const Eigen::MatrixXd&
 /// y_i free on the equalities and y_i = 0 elsewhere (and on zero gradients). Solved on unit
 /// gradients (a positive column scaling keeps the signs and helps the conditioning), reduced
 /// to a square problem by one Householder QR: ||g + A z|| = ||Q1^T g + R z|| plus a constant.
-inline bounded_least_squares_result estimate_multipliers(const model_at_point& p,
-                                                         const std::vector<Index>& active,
-                                                         const Eigen::VectorXd& row_norms,
-                                                         Eigen::VectorXd& y) {
+template <class Jacobian>
+bounded_least_squares_result estimate_multipliers(const basic_model_at_point<Jacobian>& p,
+                                                  const std::vector<Index>& active,
+                                                  const Eigen::VectorXd& row_norms,
+                                                  Eigen::VectorXd& y) {
   const Index n = p.x.size();
   y = Eigen::VectorXd::Zero(p.values.size());
   std::vector<Index> cols;
@@ -409,7 +499,7 @@ inline bounded_least_squares_result estimate_multipliers(const model_at_point& p
     if (row_norms(i) > 0) cols.push_back(i);
   const Index q = Index(cols.size());
   if (q == 0) return {};
-  Eigen::MatrixXd a = p.jacobian(cols, Eigen::all).transpose();
+  Eigen::MatrixXd a = dense_rows(p.jacobian, cols).transpose();
   std::vector<char> bounded(static_cast<std::size_t>(q));
   for (Index k = 0; k < q; ++k) {
     a.col(k) /= row_norms(cols[std::size_t(k)]);
@@ -436,11 +526,12 @@ inline void decide_residual(kkt_residual& r, double band) {
 }
 
 /// The four residuals of rep.multipliers (see kkt_options for each rule).
-inline void compute_residuals(const model_at_point& p, const Eigen::VectorXd& row_norms,
-                              const kkt_options& o, kkt_report& rep) {
+template <class Jacobian>
+void compute_residuals(const basic_model_at_point<Jacobian>& p, const Eigen::VectorXd& row_norms,
+                       const kkt_options& o, kkt_report& rep) {
   const Index n = p.x.size(), m = p.values.size();
   const Eigen::VectorXd& y = rep.multipliers;
-  const double grad_ref = std::max(1.0, p.objective_gradient.lpNorm<Eigen::Infinity>());
+  const double grad_ref = std::max(1.0, p.objective_gradient.template lpNorm<Eigen::Infinity>());
   const double y_ref = std::max(1.0, m > 0 ? y.lpNorm<Eigen::Infinity>() : 0.0);
   rep.multiplier_scale =
       m > 0 ? std::max(o.multiplier_scale_cap, y.lpNorm<1>() / double(m)) / o.multiplier_scale_cap
@@ -506,8 +597,9 @@ inline void compute_residuals(const model_at_point& p, const Eigen::VectorXd& ro
 /// independent groups of dependences that share no row. A group of one dependence is an
 /// interval of its weight w, found by a ratio test (each row gives y_i + N_i w >= 0); a larger
 /// group needs the LP engine: the minimum and maximum of each of its multipliers.
-inline void multiplier_ranges(const model_at_point& p, const kkt_options& o, kkt_report& rep,
-                              bool& solved) {
+template <class Jacobian>
+void multiplier_ranges(const basic_model_at_point<Jacobian>& p, const Eigen::VectorXd& row_norms,
+                       const kkt_options& o, kkt_report& rep, bool& solved) {
   const Index m = p.values.size();
   const auto& deps = rep.licq.dependencies;
   const Index d = Index(deps.size());
@@ -519,14 +611,27 @@ inline void multiplier_ranges(const model_at_point& p, const kkt_options& o, kkt
   // the factorisation; kept, they would tie unrelated rows into the LPs with coefficients
   // near 1e-15 (common practice, no source).
   const double noise = std::sqrt(std::numeric_limits<double>::epsilon());
-  Eigen::MatrixXd basis = Eigen::MatrixXd::Zero(m, d);
+  const auto kept = [&](const row_dependence& dep, const row_dependence::term& t) {
+    return std::abs(t.coefficient) * row_norms(t.row) > noise * row_norms(dep.row);
+  };
+  // The rows a dependence involves (ascending), and N on them only: its other rows are 0.
+  std::vector<char> involved(std::size_t(m), 0);
+  for (const auto& dep : deps) {
+    involved[std::size_t(dep.row)] = 1;
+    for (const auto& t : dep.terms)
+      if (kept(dep, t)) involved[std::size_t(t.row)] = 1;
+  }
+  std::vector<Index> support;
+  for (Index i = 0; i < m; ++i)
+    if (involved[std::size_t(i)]) support.push_back(i);
+  const std::vector<Index> at = positions_of(m, support);
+  const auto local = [&](Index row) { return at[std::size_t(row)]; };
+  Eigen::MatrixXd basis = Eigen::MatrixXd::Zero(Index(support.size()), d);
   for (Index k = 0; k < d; ++k) {
     const auto& dep = deps[std::size_t(k)];
-    const double size = p.jacobian.row(dep.row).norm();
-    basis(dep.row, k) = 1;
+    basis(local(dep.row), k) = 1;
     for (const auto& t : dep.terms)
-      if (std::abs(t.coefficient) * p.jacobian.row(t.row).norm() > noise * size)
-        basis(t.row, k) = -t.coefficient;
+      if (kept(dep, t)) basis(local(t.row), k) = -t.coefficient;
   }
   // Groups: dependences linked through a shared row (union-find on the dependences).
   std::vector<Index> parent(static_cast<std::size_t>(d));
@@ -536,17 +641,15 @@ inline void multiplier_ranges(const model_at_point& p, const kkt_options& o, kkt
       k = parent[std::size_t(k)] = parent[std::size_t(parent[std::size_t(k)])];
     return k;
   };
-  std::vector<Index> support;
-  for (Index i = 0; i < m; ++i) {
+  for (Index j = 0; j < Index(support.size()); ++j) {
     Index first = -1;
     for (Index k = 0; k < d; ++k) {
-      if (basis(i, k) == 0) continue;
+      if (basis(j, k) == 0) continue;
       if (first < 0)
         first = k;
       else
         parent[std::size_t(root(k))] = root(first);
     }
-    if (first >= 0) support.push_back(i);
   }
   solved = true;
   if (Index(support.size()) > o.range_limit) {
@@ -566,19 +669,24 @@ inline void multiplier_ranges(const model_at_point& p, const kkt_options& o, kkt
   for (Index i : support) ranges.push_back({i, base(i), base(i)});
   for (Index g = 0; g < d; ++g) {
     if (root(g) != g) continue;
-    std::vector<Index> cols, rows, ineq_rows;  // the group's dependences, rows, inequality rows
+    // The group's dependences, its rows (positions in support), its inequality rows (rows
+    // of the Jacobian and positions in support).
+    std::vector<Index> cols, rows, ineq_rows, ineq_local;
     for (Index k = 0; k < d; ++k)
       if (root(k) == g) cols.push_back(k);
     for (std::size_t j = 0; j < support.size(); ++j)
-      if (basis.row(support[j])(cols).cwiseAbs().maxCoeff() > 0) {
+      if (basis.row(Index(j))(cols).cwiseAbs().maxCoeff() > 0) {
         rows.push_back(Index(j));
-        if (inequality(support[j])) ineq_rows.push_back(support[j]);
+        if (inequality(support[j])) {
+          ineq_rows.push_back(support[j]);
+          ineq_local.push_back(Index(j));
+        }
       }
     if (cols.size() == 1) {  // an interval [lo, hi] of w by the ratio test
       const Index k = cols[0];
       double lo = -inf, hi = inf;
       for (Index i : ineq_rows) {
-        const double a = basis(i, k), bound = -base(i) / a;
+        const double a = basis(local(i), k), bound = -base(i) / a;
         if (a > 0)
           lo = std::max(lo, bound);
         else
@@ -586,7 +694,7 @@ inline void multiplier_ranges(const model_at_point& p, const kkt_options& o, kkt
       }
       for (Index j : rows) {
         auto& r = ranges[std::size_t(j)];
-        const double a = basis(r.row, k);
+        const double a = basis(j, k);
         const double at_lo = std::isinf(lo) ? -a * inf : base(r.row) + a * lo;
         const double at_hi = std::isinf(hi) ? a * inf : base(r.row) + a * hi;
         r.lower = std::min(at_lo, at_hi);
@@ -594,7 +702,7 @@ inline void multiplier_ranges(const model_at_point& p, const kkt_options& o, kkt
       }
       continue;
     }
-    const Eigen::MatrixXd a = basis(ineq_rows, cols);
+    const Eigen::MatrixXd a = basis(ineq_local, cols);
     const Eigen::VectorXd row_lower = -base(ineq_rows);
     const Eigen::VectorXd row_upper = Eigen::VectorXd::Constant(Index(ineq_rows.size()), inf);
     const Eigen::VectorXd col_lower = Eigen::VectorXd::Constant(Index(cols.size()), -inf);
@@ -602,7 +710,7 @@ inline void multiplier_ranges(const model_at_point& p, const kkt_options& o, kkt
     for (Index j : rows) {
       auto& r = ranges[std::size_t(j)];
       for (double side : {1.0, -1.0}) {  // minimise side * N_k w
-        const Eigen::VectorXd c = side * basis.row(r.row)(cols).transpose();
+        const Eigen::VectorXd c = side * basis.row(j)(cols).transpose();
         double value = -inf;  // no inequality limits w: the multiplier is unbounded
         if (!ineq_rows.empty()) {
           const lp_result lp = solve_lp(a, c, row_lower, row_upper, col_lower, col_upper, o.lp);
@@ -633,13 +741,15 @@ struct null_space_basis {
   std::optional<Eigen::ColPivHouseholderQR<Eigen::MatrixXd>> qr;  ///< none when there is no row
 };
 
-inline null_space_basis null_space_of(const model_at_point& p, const std::vector<Index>& rows,
-                                      const Eigen::VectorXd& row_norms, const licq_options& lo) {
+template <class Jacobian>
+null_space_basis null_space_of(const basic_model_at_point<Jacobian>& p,
+                               const std::vector<Index>& rows, const Eigen::VectorXd& row_norms,
+                               const licq_options& lo) {
   null_space_basis b;
   const Index n = p.x.size(), q = Index(rows.size());
   b.dimension = n;
   if (q == 0) return b;
-  Eigen::MatrixXd a = p.jacobian(rows, Eigen::all).transpose();
+  Eigen::MatrixXd a = dense_rows(p.jacobian, rows).transpose();
   for (Index k = 0; k < q; ++k)
     if (row_norms(rows[std::size_t(k)]) > 0) a.col(k) /= row_norms(rows[std::size_t(k)]);
   b.qr.emplace(n, q);
@@ -701,8 +811,9 @@ inline std::string join_names(const std::vector<Index>& rows, const row_names& n
 /// Why the Hessians a point carries do not give the Hessian of the Lagrangian for y (empty
 /// when they do): rows declared affine may leave theirs out (zero), rows with a zero
 /// multiplier do not enter.
-inline std::string missing_hessians(const model_at_point& p, const Eigen::VectorXd& y,
-                                    const row_names& names) {
+template <class Jacobian>
+std::string missing_hessians(const basic_model_at_point<Jacobian>& p, const Eigen::VectorXd& y,
+                             const row_names& names) {
   if (!p.objective_hessian) return "no Hessian of the objective was given";
   std::vector<Index> missing;
   for (Index i = 0; i < p.values.size(); ++i)
@@ -715,8 +826,9 @@ inline std::string missing_hessians(const model_at_point& p, const Eigen::Vector
 }
 
 /// The Hessian of the Lagrangian from the Hessians a point carries (see missing_hessians).
-inline lagrangian_hessian stored_hessian(const model_at_point& p, const Eigen::VectorXd& y,
-                                         const row_names& names) {
+template <class Jacobian>
+lagrangian_hessian stored_hessian(const basic_model_at_point<Jacobian>& p, const Eigen::VectorXd& y,
+                                  const row_names& names) {
   lagrangian_hessian out;
   out.unavailable = missing_hessians(p, y, names);
   if (!out.unavailable.empty()) return out;
@@ -774,9 +886,10 @@ inline lagrangian_hessian difference_hessian(const callback_model& model, const 
 }
 
 /// The second-order tests of DESIGN.md, section 2, once the KKT residuals do not fail.
-inline void check_second_order(const model_at_point& p, const Eigen::VectorXd& row_norms,
-                               const kkt_options& o, const hessian_function& differences,
-                               kkt_report& rep) {
+template <class Jacobian>
+void check_second_order(const basic_model_at_point<Jacobian>& p, const Eigen::VectorXd& row_norms,
+                        const kkt_options& o, const hessian_function& differences,
+                        kkt_report& rep) {
   auto& so = rep.second_order;
   const auto not_checked = [&](std::string reason, severity level, std::string code) {
     so.result = second_order_result::not_checked;
@@ -800,6 +913,9 @@ inline void check_second_order(const model_at_point& p, const Eigen::VectorXd& r
   };
   if (n - Index(strong_rows.size()) > o.second_order_limit)
     return not_checked(too_large(n - Index(strong_rows.size())), severity::info,
+                       "second_order_not_checked");
+  if (!active_block_fits<Jacobian>(Index(all_rows.size()), n, o))
+    return not_checked(active_block_too_large(Index(all_rows.size()), n, o), severity::info,
                        "second_order_not_checked");
   const null_space_basis sufficient_basis = null_space_of(p, strong_rows, row_norms, o.licq);
   if (sufficient_basis.dimension > o.second_order_limit)
@@ -886,7 +1002,9 @@ inline void check_second_order(const model_at_point& p, const Eigen::VectorXd& r
 }
 
 /// The premises of the global certificate, checked and listed; true when they all hold.
-inline bool check_convexity(const model_at_point& p, const kkt_options& o, kkt_report& rep) {
+template <class Jacobian>
+bool check_convexity(const basic_model_at_point<Jacobian>& p, const kkt_options& o,
+                     kkt_report& rep) {
   bool ok = true;
   const Index n = p.x.size();
   rep.premises.push_back(
@@ -982,8 +1100,9 @@ inline const char* residual_name(const kkt_report& rep, const kkt_residual& r) {
 }
 
 /// Classification, findings and the one-sentence message, once every figure is in.
-inline void describe_kkt(const model_at_point& p, const kkt_options& o, bool convex_ok,
-                         kkt_report& rep) {
+template <class Jacobian>
+void describe_kkt(const basic_model_at_point<Jacobian>& p, const kkt_options& o, bool convex_ok,
+                  kkt_report& rep) {
   const auto fig = format_figure;
   const auto& names = rep.names;
   const double band = o.undecided_band;
@@ -1147,10 +1266,11 @@ inline void describe_kkt(const model_at_point& p, const kkt_options& o, bool con
   }
 }
 
-/// check_kkt on a point; the Hessian of the Lagrangian from the point's Hessians, or from
-/// `differences` when that is set.
-inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
-                          const kkt_options& o, const hessian_function& differences = {}) {
+/// check_kkt on a point, dense or sparse Jacobian alike; the Hessian of the Lagrangian from the
+/// point's Hessians, or from `differences` when that is set.
+template <class Jacobian>
+kkt_report kkt_run(const basic_model_at_point<Jacobian>& p, const Eigen::VectorXd* given,
+                   const kkt_options& o, const hessian_function& differences = {}) {
   kkt_report rep;
   rep.variables = p.x.size();
   rep.constraints = p.jacobian.rows();
@@ -1158,6 +1278,15 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
     rep.names = row_names(p.labels);
   if (auto bad = o.validate(); !bad.empty()) return invalid_kkt(rep, "bad_option", bad);
   if (auto bad = validate_point(p); !bad.ok()) return invalid_kkt(rep, bad.code, bad.message);
+  if constexpr (is_sparse_jacobian<Jacobian>) {
+    // Repeated or unordered entries (a host's own arrays) are summed per position once, so
+    // that row norms and row copies read canonical storage.
+    if (!scan_sparse_storage(p.jacobian, "jacobian").canonical) {
+      basic_model_at_point<Jacobian> summed = p;
+      summed.jacobian = summed_copy<double>(p.jacobian);
+      return kkt_run(summed, given, o, differences);
+    }
+  }
   const Index m = rep.constraints;
   if (given) {
     if (given->size() != m)
@@ -1167,11 +1296,7 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
     if (auto bad = non_finite_entry(*given, "multipliers"); !bad.empty())
       return invalid_kkt(rep, "non_finite_entry", bad);
   }
-  // Row norms column by column (a row of a column-major matrix is strided); a row whose
-  // squares overflow is measured again with the scaled norm.
-  Eigen::VectorXd row_norms = p.jacobian.rowwise().squaredNorm().cwiseSqrt();
-  for (Index i = 0; i < m; ++i)
-    if (!std::isfinite(row_norms(i))) row_norms(i) = p.jacobian.row(i).stableNorm();
+  const Eigen::VectorXd row_norms = jacobian_row_norms(p.jacobian);
 
   // Constraint qualifications at x; LICQ also picks the active rows.
   licq_options lo = o.licq;
@@ -1194,9 +1319,8 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
     mo.compare_with_licq = false;  // LICQ is in the report already
     std::vector<Index> order = ineq_rows;
     order.insert(order.end(), eq_rows.begin(), eq_rows.end());
-    const Eigen::MatrixXd a = p.jacobian(ineq_rows, Eigen::all);
-    const Eigen::MatrixXd e = p.jacobian(eq_rows, Eigen::all);
-    rep.mfcq = check_mfcq(a, e, mo, rep.names(order));
+    rep.mfcq = check_mfcq(jacobian_rows(p.jacobian, ineq_rows), jacobian_rows(p.jacobian, eq_rows),
+                          mo, rep.names(order));
     rep.mfcq_result = rep.mfcq->result;
     rep.mfcq_decided_by = "check_mfcq";
   };
@@ -1205,6 +1329,35 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
   if (given) {
     rep.source = multiplier_source::given;
     rep.multipliers = *given;
+  } else if (const Index q = Index(rep.active.active.size());
+             !active_block_fits<Jacobian>(q, rep.variables, o)) {
+    // No estimate without the dense active block: only the primal residual is decided.
+    rep.multipliers = Eigen::VectorXd::Zero(m);
+    compute_residuals(p, row_norms, o, rep);
+    rep.multipliers.resize(0);
+    rep.stationarity = rep.dual = rep.complementarity = kkt_residual{};
+    rep.stationarity_norm = std::numeric_limits<double>::quiet_NaN();
+    if (rep.licq.result != verdict::holds) run_mfcq();
+    const std::string why = active_block_too_large(q, rep.variables, o) +
+                            ": the multipliers were not estimated; give them, or raise the limit";
+    add_finding(rep.findings, severity::warning, "multipliers_not_estimated", why, {}, rep.names);
+    rep.second_order.reason = "not checked: no multipliers";
+    if (rep.primal.result == verdict::fails) {
+      rep.result = verdict::fails;
+      rep.classification = kkt_classification::not_kkt;
+      rep.message = "not a KKT point: primal " + format_figure(rep.primal.scaled) +
+                    " above its threshold " + format_figure(rep.primal.threshold) + " (" +
+                    join_names(rep.primal.over, rep.names, 3) + "); x is infeasible";
+      add_finding(rep.findings, severity::error, "primal_infeasible",
+                  "constraint violated beyond the activity tolerance: " +
+                      join_names(rep.primal.over, rep.names),
+                  rep.primal.over, rep.names);
+    } else {
+      rep.result = verdict::undecided;
+      rep.classification = kkt_classification::undecided;
+      rep.message = "KKT undecided: " + why;
+    }
+    return rep;
   } else {
     rep.source = multiplier_source::estimated;
     const auto estimate = estimate_multipliers(p, rep.active.active, row_norms, rep.multipliers);
@@ -1232,7 +1385,7 @@ inline kkt_report kkt_run(const model_at_point& p, const Eigen::VectorXd* given,
       rep.multipliers_unique = rep.multipliers_bounded = verdict::holds;
     } else {
       bool solved = false;
-      if (rep.licq.result == verdict::fails) multiplier_ranges(p, o, rep, solved);
+      if (rep.licq.result == verdict::fails) multiplier_ranges(p, row_norms, o, rep, solved);
       if (solved) {
         double width = 0;
         bool finite = true;
@@ -1306,15 +1459,21 @@ inline kkt_report kkt_callback(const callback_model& model, const Eigen::VectorX
 
 /// KKT certificate at a model evaluated at one point, the multipliers estimated by bounded
 /// least squares. Second order uses the Hessians the point carries (rows declared affine may
-/// leave theirs out); without them it is "not_checked", with the reason.
-inline kkt_report check_kkt(const model_at_point& point, const kkt_options& options = {}) {
+/// leave theirs out); without them it is "not_checked", with the reason. The Jacobian is dense
+/// (model_at_point) or sparse (sparse_model_at_point, row- or column-major): the same steps,
+/// report and thresholds; with a sparse one LICQ and MFCQ run their sparse checks, residuals
+/// use sparse products, and only the active rows are ever copied dense, within
+/// kkt_options::active_dense_limit (above it: no estimate, no second order, a finding says so).
+template <class Jacobian>
+kkt_report check_kkt(const basic_model_at_point<Jacobian>& point, const kkt_options& options = {}) {
   return detail::kkt_run(point, nullptr, options);
 }
 
 /// The same with the multipliers given (one per constraint, L = f + sum y_i c_i): the pair
 /// (x, multipliers) is checked.
-inline kkt_report check_kkt(const model_at_point& point, const Eigen::VectorXd& multipliers,
-                            const kkt_options& options = {}) {
+template <class Jacobian>
+kkt_report check_kkt(const basic_model_at_point<Jacobian>& point,
+                     const Eigen::VectorXd& multipliers, const kkt_options& options = {}) {
   return detail::kkt_run(point, &multipliers, options);
 }
 

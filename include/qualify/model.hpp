@@ -4,11 +4,13 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <Eigen/SparseCore>
 #include <cmath>
 #include <exception>
 #include <functional>
 #include <optional>
 #include <qualify/constraints.hpp>
+#include <qualify/detail/sparse.hpp>
 #include <string>
 #include <type_traits>
 #include <utility>
@@ -20,13 +22,21 @@ namespace qualify {
 /// derivatives. Row i of `jacobian` is the gradient of constraint i; `types`, `kinds`,
 /// `labels` (may be empty) and `hessians` (empty, or one optional entry per constraint) are
 /// indexed the same way. Nothing here is validated on construction: every check validates it
-/// and answers `invalid_input` naming the field.
-struct model_at_point {
+/// and answers `invalid_input` naming the field. `Jacobian` is Eigen::MatrixXd
+/// (`model_at_point`) or Eigen::SparseMatrix<double> row- or column-major
+/// (`sparse_model_at_point`); the Hessians stay dense n x n either way, since second order is
+/// only ever checked on small reduced Hessians (kkt_options::second_order_limit).
+template <class Jacobian>
+struct basic_model_at_point {
+  static_assert(std::is_same_v<Jacobian, Eigen::MatrixXd> ||
+                    std::is_same_v<Jacobian, Eigen::SparseMatrix<double, Eigen::ColMajor>> ||
+                    std::is_same_v<Jacobian, Eigen::SparseMatrix<double, Eigen::RowMajor>>,
+                "the Jacobian of a point is Eigen::MatrixXd or Eigen::SparseMatrix<double>");
   Eigen::VectorXd x;
   Eigen::VectorXd objective_gradient;
   std::optional<Eigen::MatrixXd> objective_hessian;
   Eigen::VectorXd values;
-  Eigen::MatrixXd jacobian;
+  Jacobian jacobian;
   std::vector<constraint_type> types;
   std::vector<constraint_kind> kinds;
   std::vector<std::string> labels;
@@ -34,6 +44,12 @@ struct model_at_point {
   /// The modeller's claim that f and every inequality are convex and every equality affine.
   bool convex_model = false;
 };
+
+/// A model at one point with a dense Jacobian: the input of the point checks.
+using model_at_point = basic_model_at_point<Eigen::MatrixXd>;
+/// The same with a sparse Jacobian (for a row-major one: basic_model_at_point<
+/// Eigen::SparseMatrix<double, Eigen::RowMajor>>).
+using sparse_model_at_point = basic_model_at_point<Eigen::SparseMatrix<double>>;
 
 /// A model given by callbacks, for the checks that evaluate it at points of their own
 /// choosing (Slater's phase one, the derivative check, check_kkt at a given x). Constraint i
@@ -108,8 +124,11 @@ struct input_problem {
 /// Checks that a model_at_point is usable: x has n >= 1 entries, the objective gradient n, the
 /// objective Hessian (when given) is n x n; `values`, `types` and `kinds` have one entry per
 /// row of the m x n `jacobian`; `labels` and `hessians` are empty or have m entries, each
-/// Hessian given is n x n; every number is finite.
-inline input_problem validate_point(const model_at_point& p) {
+/// Hessian given is n x n; every number is finite. A sparse Jacobian's storage must have
+/// offsets that do not decrease and indices in range (`invalid_sparse_structure`); repeated
+/// or unordered entries are allowed (the checks sum them per position).
+template <class Jacobian>
+input_problem validate_point(const basic_model_at_point<Jacobian>& p) {
   const auto n = p.x.size(), m = p.jacobian.rows();
   const auto sizes = [](Index got, Index want, const char* what, const char* of) {
     return std::string(what) + " has " + std::to_string(got) + " entries, expected " +
@@ -148,7 +167,14 @@ inline input_problem validate_point(const model_at_point& p) {
   if (auto bad = finite(p.x, "x"); !bad.ok()) return bad;
   if (auto bad = finite(p.objective_gradient, "objective_gradient"); !bad.ok()) return bad;
   if (auto bad = finite(p.values, "values"); !bad.ok()) return bad;
-  if (auto bad = finite(p.jacobian, "jacobian"); !bad.ok()) return bad;
+  if constexpr (std::is_same_v<Jacobian, Eigen::MatrixXd>) {
+    if (auto bad = finite(p.jacobian, "jacobian"); !bad.ok()) return bad;
+  } else {
+    const detail::sparse_storage storage = detail::scan_sparse_storage(p.jacobian, "jacobian");
+    if (storage.error) return {"invalid_sparse_structure", *storage.error};
+    if (auto bad = detail::sparse_non_finite_message(p.jacobian, "jacobian"))
+      return {"non_finite_entry", *bad};
+  }
   const auto hessian = [&](const Eigen::MatrixXd& h, const std::string& what) {
     input_problem bad = square(h, what);
     return bad.ok() ? finite(h, what) : bad;
