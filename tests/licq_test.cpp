@@ -259,6 +259,23 @@ TEST_CASE("more rows than variables fail by structure") {
   CHECK(rep.dependencies.size() == 2);
 }
 
+TEST_CASE("rows of denormal entries: the dependence is explained with a finite residual") {
+  // Found by fuzzing: 7e-323 and 2e-323 (14 and 4 times the smallest denormal) in one column.
+  // The residual was computed through coefficient / norm, which overflows for a norm below
+  // 1 / DBL_MAX, and came out NaN. Either row is the other times 7/2 (or 2/7), exactly.
+  MatrixXd j(2, 1);
+  j << 7e-323, 2e-323;
+  const auto rep = check_licq(j);
+  QUALIFY_CHECK_FAILS(rep);
+  REQUIRE(rep.dependencies.size() == 1);
+  const auto& dep = rep.dependencies.front();
+  REQUIRE(dep.terms.size() == 1);
+  CHECK(std::isfinite(dep.residual));
+  CHECK(dep.residual <= 1e-12);
+  CHECK(dep.terms.front().coefficient ==
+        doctest::Approx(j(dep.row, 0) / j(dep.terms.front().row, 0)).epsilon(1e-12));
+}
+
 TEST_CASE("the active-set overload picks rows by value and keeps the caller's numbering") {
   // Rows: an active inequality, an inactive one, a near-active one, an equality, and an
   // active inequality duplicating row 0.

@@ -546,7 +546,18 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
       }
     }
     matrix<Scalar> residual = unit_dep;
-    if (r > 0) residual.noalias() -= weights * jac;
+    if (r > 0 && weights.allFinite()) {
+      residual.noalias() -= weights * jac;
+    } else if (r > 0) {
+      // coef / norm overflows for a row of denormal entries (norm below 1 / max): subtract
+      // the unit rows one by one instead (found by fuzzing: rows 7e-323 and 2e-323 gave a
+      // NaN residual).
+      for (Index c = 0; c < d; ++c)
+        for (Index t = 0; t < r; ++t) {
+          const Index base = kept[decision.order[t]];
+          if (coef(t, c) != Scalar(0)) residual.row(c) -= coef(t, c) * (jac.row(base) / norms(base));
+        }
+    }
     for (Index c = 0; c < d; ++c) {
       const Index row = kept[decision.order[r + c]];
       row_dependence dep{to_global(row), {}, double(residual.row(c).stableNorm())};

@@ -61,20 +61,23 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   if (rep.result != verdict::holds) return 0;
   QUALIFY_FUZZ_ASSERT(!overflowed);
 
-  // A certified point: every part holds, inequality multipliers are not negative beyond the
-  // tolerance, and g + J^T y is small against the size of its terms (a looser scale than any
-  // the library may use, with a factor 10).
+  // A certified point: every part holds, and g + J^T y, recomputed in long double, meets the
+  // documented rule ||g + J^T y||_inf / s_d <= tol * max(1, ||g||_inf), s_d = max(s_max,
+  // ||y||_1 / m) / s_max (within a factor 10 and the rounding of the sum's terms).
   for (const auto* r : {&rep.stationarity, &rep.primal, &rep.dual, &rep.complementarity})
     QUALIFY_FUZZ_ASSERT(r->result == verdict::holds);
+  const qualify::kkt_options defaults;
   const Eigen::Matrix<ld, Eigen::Dynamic, 1> y = rep.multipliers.cast<ld>();
   Eigen::Matrix<ld, Eigen::Dynamic, 1> r = p.objective_gradient.cast<ld>();
-  ld scale = 1 + p.objective_gradient.cast<ld>().cwiseAbs().maxCoeff();
+  ld terms = p.objective_gradient.cast<ld>().cwiseAbs().maxCoeff();
   for (Index i = 0; i < m; ++i) {
     r += y(i) * p.jacobian.row(i).cast<ld>().transpose();
-    scale += std::abs(y(i)) * p.jacobian.row(i).cast<ld>().cwiseAbs().maxCoeff();
+    terms += std::abs(y(i)) * p.jacobian.row(i).cast<ld>().cwiseAbs().maxCoeff();
   }
-  const qualify::kkt_options defaults;
-  QUALIFY_FUZZ_ASSERT(r.cwiseAbs().maxCoeff() <=
-                      10 * ld(defaults.stationarity_tolerance) * scale * ld(std::sqrt(double(n))));
+  const ld cap = defaults.multiplier_scale_cap;
+  const ld s_d = m > 0 ? std::max(cap, y.cwiseAbs().sum() / ld(m)) / cap : 1;
+  const ld g_ref = std::max<ld>(1, p.objective_gradient.cast<ld>().cwiseAbs().maxCoeff());
+  QUALIFY_FUZZ_ASSERT(r.cwiseAbs().maxCoeff() / s_d <=
+                      10 * ld(defaults.stationarity_tolerance) * g_ref + 1e-12L * terms / s_d);
   return 0;
 }
