@@ -2,7 +2,7 @@
 # SPDX-License-Identifier: MIT
 #
 # cmake -DQUALIFY=<the qualify binary> -DGROUP=<verdicts|json|labels|errors|usage|mfcq|lp|slater|
-#       kkt|sparse> [-DSPQR=<ON when qualify was built with SPQR>]
+#       kkt|sparse|faults> [-DSPQR=<ON when qualify was built with SPQR>]
 #       -DWORK_DIR=<scratch folder> -DVERSION=<project version> [-DJQ=<jq>] -P cli_test.cmake
 # Every check runs the binary and compares its exit status exactly, so a crash (a signal name
 # instead of a number) fails. JSON is parsed with string(JSON) and, when jq is found, also by
@@ -37,14 +37,15 @@ function(write_mtx name rows cols)
 endfunction()
 
 # run(ARGS...): runs qualify in WORK_DIR; sets rc, out, err and cmd in the caller.
-# run(INPUT FILE ARGS...): standard input from FILE.
+# run(INPUT FILE ARGS...): standard input from FILE. RUN_AS, when set, is a command prefix
+# (another user).
 function(run)
   cmake_parse_arguments(RUN "" "INPUT" "" ${ARGN})
   set(input)
   if(RUN_INPUT)
     set(input INPUT_FILE "${WORK_DIR}/${RUN_INPUT}")
   endif()
-  execute_process(COMMAND "${QUALIFY}" ${RUN_UNPARSED_ARGUMENTS} WORKING_DIRECTORY "${WORK_DIR}"
+  execute_process(COMMAND ${RUN_AS} "${QUALIFY}" ${RUN_UNPARSED_ARGUMENTS} WORKING_DIRECTORY "${WORK_DIR}"
                   ${input} RESULT_VARIABLE result OUTPUT_VARIABLE stdout ERROR_VARIABLE stderr)
   string(REPLACE ";" " " shown "${RUN_UNPARSED_ARGUMENTS}")
   set(rc "${result}" PARENT_SCOPE)
@@ -1058,6 +1059,99 @@ elseif(GROUP STREQUAL "kkt")
   expect_in(out "Usage: qualify kkt POINT.json [--tol X] [--json]")
   run(--help)
   expect_in(out "  kkt ")
+
+elseif(GROUP STREQUAL "faults")
+  # Files cut inside a line or an entry: 65, naming the file and the line.
+  write(cut_value.mtx "%%MatrixMarket matrix coordinate real general\n2 2 2\n1 1 1\n2 2 1.5e")
+  run_args(licq cut_value.mtx)
+  expect_error(65 cut_value.mtx 4)
+  expect_in(err "'1.5e'")
+  write(cut_header.mtx "%%MatrixMarket matrix coord")
+  run_args(licq cut_header.mtx)
+  expect_error(65 cut_header.mtx 1)
+  write(cut_array.mtx "%%MatrixMarket matrix array real general\n2 2\n1\n0\n0")
+  run_args(mfcq --ineq cut_array.mtx)
+  expect_error(65 cut_array.mtx 5)
+  expect_in(err "ends after 3 of the 4 entries")
+  write(cut_line.mps "NAME CUT\nROWS\n N COST\n L LIM\nCOLUMNS\n X1 COST 1 LI")
+  run_args(lp cut_line.mps)
+  expect_error(65 cut_line.mps 6)
+  run_args(slater cut_line.mps)
+  expect_error(65 cut_line.mps 6)
+  write(cut_value.json "{ \"x\": [1, 2],\n  \"objective\": { \"gradient\": [1.")
+  run_args(kkt cut_value.json)
+  expect_in(err "line 2, column ")
+  expect_error(65 cut_value.json)
+  run(kkt cut_value.json --json)
+  expect_key(2 line)
+  write(cut_key.json "{ \"x\": [1, 2], \"obj")
+  run_args(kkt cut_key.json)
+  expect_in(err "line 1, column ")
+  expect_error(65 cut_key.json)
+  # The last line without its newline is complete: read, not refused.
+  write(no_newline.mtx "%%MatrixMarket matrix coordinate real general\n2 2 2\n1 1 1\n2 2 1")
+  run(licq no_newline.mtx)
+  expect_rc(0)
+
+  # Paths that cannot be read: 66 for every reader, the file and the reason named.
+  write_mtx(good.mtx 2 2 "1 1 1" "2 2 1")
+  write(good.labels "a\nb\n")
+  write(good.mps "NAME OK\nROWS\n N COST\n L LIM\nCOLUMNS\n X1 COST 1 LIM 1\nRHS\n RHS LIM 4\nENDATA\n")
+  write(good.json "{ \"x\": [1, 2], \"objective\": { \"gradient\": [1, 1] }, \"constraints\": [] }\n")
+  file(MAKE_DIRECTORY "${WORK_DIR}/folder.json")
+  run_args(kkt folder.json)
+  expect_error(66 folder.json)
+  expect_in(err "it is a directory")
+  run_args(mfcq --ineq good.mtx --eq missing.mtx)
+  expect_error(66 missing.mtx)
+  expect_in(err "No such file or directory")
+  # No read permission. Root (or CAP_DAC_OVERRIDE) reads such files anyway: then the case is
+  # skipped with a message, unless setpriv (util-linux) can run the command as nobody.
+  foreach(name good.mtx good.labels good.mps good.json)
+    file(READ "${WORK_DIR}/${name}" text)
+    write(locked_${name} "${text}")
+    execute_process(COMMAND chmod 000 "${WORK_DIR}/locked_${name}")
+  endforeach()
+  execute_process(COMMAND cat "${WORK_DIR}/locked_good.mtx" RESULT_VARIABLE readable
+                  OUTPUT_QUIET ERROR_QUIET)
+  set(as_nobody)
+  if(readable EQUAL 0)
+    find_program(SETPRIV setpriv)
+    if(SETPRIV)
+      execute_process(COMMAND "${SETPRIV}" --reuid=65534 --regid=65534 --clear-groups
+                              "${QUALIFY}" --version RESULT_VARIABLE nobody_rc
+                              OUTPUT_QUIET ERROR_QUIET)
+      if(nobody_rc EQUAL 0)
+        set(as_nobody "${SETPRIV}" --reuid=65534 --regid=65534 --clear-groups)
+      endif()
+    endif()
+  endif()
+  if(readable EQUAL 0 AND NOT as_nobody)
+    message(STATUS "cli faults: skipped: files without read permission are readable here "
+                   "(running as root?) and setpriv cannot run the command as nobody")
+  else()
+    if(as_nobody)
+      message(STATUS "cli faults: files without read permission: run as nobody through setpriv")
+      set(RUN_AS ${as_nobody})
+    endif()
+    run_args(licq locked_good.mtx)
+    expect_error(66 locked_good.mtx)
+    expect_in(err "Permission denied")
+    run_args(mfcq --ineq good.mtx --eq locked_good.mtx)
+    expect_error(66 locked_good.mtx)
+    run_args(licq good.mtx --labels locked_good.labels)
+    expect_error(66 locked_good.labels)
+    expect_in(err "Permission denied")
+    run_args(lp locked_good.mps)
+    expect_error(66 locked_good.mps)
+    run_args(slater locked_good.mps)
+    expect_error(66 locked_good.mps)
+    expect_in(err "Permission denied")
+    run_args(kkt locked_good.json)
+    expect_error(66 locked_good.json)
+    expect_in(err "Permission denied")
+    unset(RUN_AS)
+  endif()
 
 else()
   message(FATAL_ERROR "unknown GROUP '${GROUP}'")

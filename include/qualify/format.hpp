@@ -341,7 +341,9 @@ struct report_formatter {
       full = true;
       ++it;
     }
-    if (it != ctx.end() && *it != '}') throw fmt::format_error("qualify reports take {} or {:f}");
+    // fmt's own way to refuse a spec: a throw, or fmt's assertion without exceptions.
+    if (it != ctx.end() && *it != '}')
+      FMT_THROW(fmt::format_error("qualify reports take {} or {:f}"));
     return it;
   }
   template <class Report, class FormatContext>

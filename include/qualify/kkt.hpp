@@ -1451,8 +1451,16 @@ inline kkt_report kkt_callback(const callback_model& model, const Eigen::VectorX
   if (!e.ok()) return invalid_kkt(rep, e.code, e.error);
   if (analytic) return kkt_run(e.point, given, o);
   const double step = o.difference_step.value_or(std::cbrt(std::numeric_limits<double>::epsilon()));
-  return kkt_run(e.point, given, o,
-                 [&](const Eigen::VectorXd& y) { return difference_hessian(model, x, y, step); });
+  // A throw or NaN at x +- h e_j leaves second order unchecked (a domain edge); a size that
+  // differs from the one at x means a broken model, as at x itself.
+  std::string size_error;
+  kkt_report out = kkt_run(e.point, given, o, [&](const Eigen::VectorXd& y) {
+    lagrangian_hessian h = difference_hessian(model, x, y, step);
+    if (h.failure_code == "callback_size") size_error = h.unavailable;
+    return h;
+  });
+  if (!size_error.empty()) return invalid_kkt(rep, "callback_size", size_error);
+  return out;
 }
 
 }  // namespace detail

@@ -479,8 +479,15 @@ inline lp_result lp_solve_general(const lp_general& original, const lp_options& 
       r.message = "optimal";
       break;
     case ipm_status::iteration_limit:
+      // The residuals say how far the last iterate was from the stopping test.
       r.status = lp_status::iteration_limit;
-      r.message = ipm.message;
+      r.message = "the iteration limit (" + std::to_string(o.max_iterations) +
+                  ", lp_options::max_iterations) was reached; relative residuals of the last "
+                  "iterate: primal " +
+                  format_figure(r.primal_residual) + " (tolerance " +
+                  format_figure(o.primal_tolerance) + "), dual " + format_figure(r.dual_residual) +
+                  " (" + format_figure(o.dual_tolerance) + "), gap " + format_figure(r.gap) + " (" +
+                  format_figure(o.gap_tolerance) + ")";
       break;
     default:
       r.status = lp_status::numerical_trouble;

@@ -11,6 +11,7 @@
 #include <optional>
 #include <qualify/constraints.hpp>
 #include <qualify/detail/sparse.hpp>
+#include <qualify/detail/config.hpp>
 #include <string>
 #include <type_traits>
 #include <utility>
@@ -207,10 +208,11 @@ struct evaluation_request {
 namespace detail {
 
 /// Runs a callback; a thrown exception becomes its message (callbacks are user code, and the
-/// checks never let their exceptions escape).
+/// checks never let their exceptions escape). Without exceptions (QUALIFY_HAS_EXCEPTIONS 0) a
+/// callback cannot throw, so it is called directly; its NaN, Inf and sizes are still checked.
 template <class Fn>
 bool run_callback(const char* name, Fn&& fn, std::string& error) {
-#if defined(__cpp_exceptions) || defined(__EXCEPTIONS)
+#if QUALIFY_HAS_EXCEPTIONS
   try {
     fn();
     return true;

@@ -8,11 +8,14 @@
 #include <cerrno>
 #include <cmath>
 #include <cstdlib>
+#include <cstring>
+#include <filesystem>
 #include <fstream>
 #include <istream>
 #include <limits>
 #include <string>
 #include <string_view>
+#include <system_error>
 #include <unordered_map>
 #include <vector>
 
@@ -618,14 +621,19 @@ inline mps_model read_mps(std::istream& in, const mps_options& options = {}) {
   return detail::mps_reader(options).read(in);
 }
 
-/// Reads an MPS model from a file; a missing file is reported in `error`.
+/// Reads an MPS model from a file. A file that cannot be opened (missing, a directory, no
+/// permission) is reported in `error` as "cannot open 'PATH': reason", with error_line 0.
 inline mps_model read_mps_file(const std::string& path, const mps_options& options = {}) {
-  std::ifstream in(path);
-  if (!in) {
+  const auto cannot_open = [&](const std::string& reason) {
     mps_model model;
-    model.error = "cannot open '" + path + "'";
+    model.error = "cannot open '" + path + "': " + reason;
     return model;
-  }
+  };
+  // An ifstream opens a directory and only fails on the first read, as a "line 0" error.
+  std::error_code ec;
+  if (std::filesystem::is_directory(path, ec)) return cannot_open("it is a directory");
+  std::ifstream in(path);
+  if (!in) return cannot_open(std::strerror(errno));
   return read_mps(in, options);
 }
 

@@ -1112,6 +1112,17 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
     rep.weights[i] = w > 0 && std::isfinite(w) ? w : 1.0;
   }
   detail::model_probe probe(model, rep.names);
+  // Every answer below ends here: a callback whose size changed on the way (probe.fatal())
+  // makes the model invalid whatever was found.
+  auto finish = [&]() {
+    rep.callback_evaluations = probe.evaluations;
+    if (probe.fatal()) return detail::slater_refuse(rep, probe.code(), probe.error());
+    return rep;
+  };
+  // Why a point may have failed its direct check: the callbacks' last failure, if any.
+  auto last_failure = [&]() {
+    return probe.error().empty() ? std::string() : "; last callback failure: " + probe.error();
+  };
   const double tau = o.margin_tolerance, strict = o.undecided_band * o.margin_tolerance;
   const double inf = std::numeric_limits<double>::infinity();
 
@@ -1205,10 +1216,10 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
   // affine makes the affine part's coefficients wrong.
   auto check_affinity = [&](const VectorXd& x) {
     if (rep.affine_rows.empty() && rep.equality_rows.empty()) return true;
-    const auto at = evaluate_model(model, x, {false, false});
-    if (!at.ok()) return true;  // nothing to compare against
-    std::vector<point_sample<double>> samples{{x0, c0, J0},
-                                              {x, at.point.values, at.point.jacobian}};
+    VectorXd values;
+    MatrixXd jac;  // through the probe, so that a wrong size reaches finish()
+    if (!probe.values(x, values) || !probe.jacobian(x, jac)) return true;  // nothing to compare
+    std::vector<point_sample<double>> samples{{x0, c0, J0}, {x, values, jac}};
     const auto check = check_declared_affine(model.kinds, samples, o.affine_check, model.labels);
     for (const auto& f : check.findings) rep.findings.push_back(f);
     return check.result != verdict::fails;
@@ -1235,10 +1246,9 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
       rep.message =
           "undecided: the affine part's LPs gave no point that checks through the "
           "callbacks (" +
-          a.message + ")";
+          a.message + ")" + last_failure();
     }
-    rep.callback_evaluations = probe.evaluations;
-    return rep;
+    return finish();
   }
 
   // 4. Convex rows: the phase one from a point strictly inside the affine rows, in the
@@ -1367,14 +1377,14 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
       check_affinity(rep.point);
     } else {
       rep.result = rep.strict_interior = verdict::undecided;
-      add_finding(rep.findings, severity::info, "point_not_verified",
-                  "the phase one's point did not pass the direct check of the constraints", {},
-                  rep.names);
-      rep.message =
-          "undecided: the phase one's point did not pass the direct check (" + bounds + ")";
+      add_finding(
+          rep.findings, severity::info, "point_not_verified",
+          "the phase one's point did not pass the direct check of the constraints" + last_failure(),
+          {}, rep.names);
+      rep.message = "undecided: the phase one's point did not pass the direct check (" + bounds +
+                    ")" + last_failure();
     }
-    rep.callback_evaluations = probe.evaluations;
-    return rep;
+    return finish();
   }
 
   if (run.end == detail::phase_one_end::decided) {
@@ -1426,8 +1436,7 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
       rep.message = "undecided: a row declared affine is not, so the certificate does not apply (" +
                     bounds + ")";
     }
-    rep.callback_evaluations = probe.evaluations;
-    return rep;
+    return finish();
   }
 
   rep.result = rep.strict_interior = verdict::undecided;
@@ -1444,8 +1453,7 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
                   rep.names);
   }
   rep.message = "undecided: " + why;
-  rep.callback_evaluations = probe.evaluations;
-  return rep;
+  return finish();
 }
 
 }  // namespace qualify

@@ -51,6 +51,7 @@ class model_probe {
   template <class Fn>
   bool run(const char* name, Fn&& fn, Eigen::MatrixXd& out, Index rows, Index cols, bool rows_named,
            const std::string& suffix) {
+    if (fatal()) return false;  // a broken model stays broken: keep the first message
     ++evaluations;
     std::string error;
     if (!run_callback(name, fn, error)) {

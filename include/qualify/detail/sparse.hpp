@@ -8,6 +8,7 @@
 #include <cstddef>
 #include <new>
 #include <optional>
+#include <qualify/detail/config.hpp>
 #include <qualify/detail/dense.hpp>
 #include <qualify/report.hpp>
 #include <string>
@@ -321,7 +322,10 @@ class spqr_factor {
     rank_ = SuiteSparseQR<double>(ordering, tol, 0, &view, &r_, &e_, &cc_);
     if (rank_ < 0 && cc_.status == CHOLMOD_OUT_OF_MEMORY) {
       release();
+#if QUALIFY_HAS_EXCEPTIONS
       throw std::bad_alloc();  // resource exhaustion is the one condition that throws
+#endif
+      // Without exceptions ok() is now false, and the caller takes its fallback.
     }
   }
   spqr_factor(const spqr_factor&) = delete;
