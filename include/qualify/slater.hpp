@@ -516,12 +516,17 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     if (y.size() != m || !y.allFinite() || y.lpNorm<Eigen::Infinity>() == 0) return false;
     for (double sign : {1.0, -1.0}) {
       // Interior-point multipliers carry noise of the LP's tolerance on every row: entries
-      // of the sign that would need an absent bound, or below cert_tol * ||y||, go to zero
-      // (the check below is made on the cleaned vector).
-      Eigen::VectorXd ys = sign * y;
-      const double size = ys.lpNorm<Eigen::Infinity>();
+      // of the sign that would need an absent bound, or whose term |y_i| (||a_i|| + |b_i|)
+      // is below cert_tol times the largest, go to zero (the check below is made on the
+      // cleaned vector). Terms, not |y_i|: a row multiplied by c divides its y_i by c.
+      Eigen::VectorXd ys = sign * y, term(m);
+      for (Index i = 0; i < m; ++i) {
+        const double b = ys[i] > 0 ? p.rl[i] : p.ru[i];
+        term[i] = std::abs(ys[i]) * (p.row_norm[i] + (std::isfinite(b) ? std::abs(b) : 0.0));
+      }
+      const double size = term.lpNorm<Eigen::Infinity>();
       for (Index i = 0; i < m; ++i)
-        if (std::abs(ys[i]) <= cert_tol * size || (ys[i] > 0 && !std::isfinite(p.rl[i])) ||
+        if (term[i] <= cert_tol * size || (ys[i] > 0 && !std::isfinite(p.rl[i])) ||
             (ys[i] < 0 && !std::isfinite(p.ru[i])))
           ys[i] = 0;
       const double margin = lp_farkas_margin(original, ys, cert_tol);

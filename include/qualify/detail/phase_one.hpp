@@ -201,7 +201,10 @@ inline phase_one_result run_phase_one(
   const Index nr = Q > 0 ? Z.cols() : n;
 
   double s = std::max(out.best_max, -1.0) + 1.0;
-  double t = 1.0;  // the constraints are scaled to about 1 at the start (sec. 11.3.1)
+  // The constraints are scaled to about 1 at x0 (sec. 11.3.1), where t = 1 suits; from a start
+  // far from x0 (the affine part's LP point) s can be 1e5 and t s would then need as many
+  // damped Newton steps: t = 1 / s keeps t s about 1.
+  double t = 1.0 / std::max(1.0, s);
   MatrixXd B;      // BFGS: sum lambda_i hess(g_i / w_i)
   bool bfgs_scaled = false;
   if (!p.exact_hessians) B = MatrixXd::Identity(n, n);
