@@ -6,6 +6,7 @@
 #include <Eigen/SparseCore>
 #include <glpk.h>
 
+#include <cmath>
 #include <limits>
 #include <vector>
 
@@ -63,6 +64,19 @@ inline double glpk_margin(const sparse_rows& a, const sparse_rows& e) {
 
 inline double glpk_margin(const Eigen::MatrixXd& a, const Eigen::MatrixXd& e) {
   return glpk_margin(sparse_rows(a.sparseView(0.0, 0.0)), sparse_rows(e.sparseView(0.0, 0.0)));
+}
+
+/// The residual of an MFCQ certificate as mfcq_certificate documents it, recomputed on the data
+/// (dense or sparse): ||A^T lambda + E^T mu||_2 / (sum lambda_i ||a_i|| + sum |mu_j| ||e_j||),
+/// 0 when that size is 0 (zero gradients depend on nothing).
+template <class Matrix>
+double certificate_residual(const Matrix& a, const Matrix& e, const Eigen::VectorXd& lambda,
+                            const Eigen::VectorXd& mu) {
+  const Eigen::VectorXd sum = a.transpose() * lambda + e.transpose() * mu;
+  double size = 0;
+  for (Eigen::Index i = 0; i < a.rows(); ++i) size += lambda(i) * a.row(i).norm();
+  for (Eigen::Index j = 0; j < e.rows(); ++j) size += std::abs(mu(j)) * e.row(j).norm();
+  return size > 0 ? sum.norm() / size : 0.0;
 }
 
 }  // namespace qualify_test

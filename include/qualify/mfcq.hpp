@@ -230,6 +230,18 @@ inline Eigen::VectorXd row_norms(const mfcq_sparse& m) {
   return Eigen::Map<const Eigen::VectorXd>(norms.data(), Index(norms.size()));
 }
 
+/// Row i divided by norms(i) > 0: a division, since 1 / norm overflows for subnormal rows.
+inline Eigen::MatrixXd divide_rows(Eigen::MatrixXd m, const Eigen::VectorXd& norms) {
+  for (Index i = 0; i < m.rows(); ++i) m.row(i) /= norms(i);
+  return m;
+}
+
+inline mfcq_sparse divide_rows(mfcq_sparse m, const Eigen::VectorXd& norms) {
+  for (Index i = 0; i < m.outerSize(); ++i)
+    for (mfcq_sparse::InnerIterator it(m, i); it; ++it) it.valueRef() /= norms(i);
+  return m;
+}
+
 inline Eigen::MatrixXd select_rows(const Eigen::MatrixXd& m, const std::vector<Index>& rows) {
   return m(rows, Eigen::all);
 }
@@ -437,8 +449,7 @@ mfcq_report mfcq_run(const Matrix& a, const Matrix& e, const mfcq_options& optio
   for (Index i = 0; i < ma; ++i)
     if (a_norm(i) <= options.zero_row_norm) zero_rows.push_back(i);
   const Index q = Index(eq_used.size());
-  const Matrix e_unit =
-      VectorXd(e_norm(eq_used).cwiseInverse()).asDiagonal() * select_rows(e, eq_used);
+  const Matrix e_unit = divide_rows(select_rows(e, eq_used), e_norm(eq_used));
 
   // The direction part: does some d with E d = 0 decrease every active inequality?
   verdict dir_verdict = verdict::undecided;
@@ -459,7 +470,7 @@ mfcq_report mfcq_run(const Matrix& a, const Matrix& e, const mfcq_options& optio
     rep.direction = VectorXd::Zero(n);
     rep.max_ineq_derivative = -std::numeric_limits<double>::infinity();
   } else {
-    const Matrix a_unit = VectorXd(a_norm.cwiseInverse()).asDiagonal() * a;
+    const Matrix a_unit = divide_rows(a, a_norm);
     const lp_result lp = solve_mfcq_lp(a_unit, e_unit, options.lp);
     rep.lp = lp.status;
     rep.lp_iterations = lp.iterations;
@@ -519,10 +530,17 @@ mfcq_report mfcq_run(const Matrix& a, const Matrix& e, const mfcq_options& optio
     cert.kind = mfcq_certificate_kind::positive_dependence;
     cert.lambda = VectorXd::Zero(ma);
     cert.mu = VectorXd::Zero(me);
+    // lambda_unit / ||a_i|| times the smallest norm involved (the scale is normalised away
+    // below): 1 / ||a_i|| alone overflows for subnormal rows.
+    double least = std::numeric_limits<double>::infinity();
+    for (Index i = 0; i < ma; ++i)
+      if (lambda_unit(i) > 0 && a_norm(i) > 0) least = std::min(least, a_norm(i));
+    for (Index k = 0; k < q; ++k) least = std::min(least, e_norm(eq_used[k]));
+    if (!std::isfinite(least)) least = 1;
     for (Index i = 0; i < ma; ++i)
       if (lambda_unit(i) > 0)
-        cert.lambda(i) = a_norm(i) > 0 ? lambda_unit(i) / a_norm(i) : lambda_unit(i);
-    for (Index k = 0; k < q; ++k) cert.mu(eq_used[k]) = mu_unit(k) / e_norm(eq_used[k]);
+        cert.lambda(i) = a_norm(i) > 0 ? lambda_unit(i) * (least / a_norm(i)) : lambda_unit(i);
+    for (Index k = 0; k < q; ++k) cert.mu(eq_used[k]) = mu_unit(k) * (least / e_norm(eq_used[k]));
     if (!zero_rows.empty()) cert.margin_bound = 0;
   } else if (eq_verdict == verdict::fails) {
     // E^T mu = 0 from the first dependent equality: e_row = sum coefficient * e_term.
