@@ -1,9 +1,13 @@
 // qualify tests: KKT test cases shared by the dense and the sparse KKT tests: the
-// Hock-Schittkowski problems as callback models, degenerate vertices, quadratics at the origin.
+// Hock-Schittkowski problems as callback models, degenerate vertices, quadratics at the origin,
+// counter-examples, and the assertions on reports they share.
 // SPDX-License-Identifier: MIT
 #pragma once
 
+#include <doctest/doctest.h>
+
 #include <Eigen/Dense>
+#include <algorithm>
 #include <cmath>
 #include <functional>
 #include <memory>
@@ -19,6 +23,26 @@ namespace qualify_test {
 using namespace qualify;
 using Eigen::MatrixXd;
 using Eigen::VectorXd;
+
+inline bool has_code(const kkt_report& r, const std::string& code) {
+  return std::any_of(r.findings.begin(), r.findings.end(),
+                     [&](const finding& f) { return f.code == code; });
+}
+
+inline bool contains(const std::string& text, const std::string& part) {
+  return text.find(part) != std::string::npos;
+}
+
+/// Bad input: an invalid_input report whose last finding has `code` and whose message says
+/// `words`.
+inline void expect_invalid(const kkt_report& r, const std::string& code, const std::string& words) {
+  CAPTURE(r.message);
+  CHECK(r.result == verdict::invalid_input);
+  CHECK(r.classification == kkt_classification::not_checked);
+  REQUIRE(!r.findings.empty());
+  CHECK(r.findings.back().code == code);
+  CHECK(contains(r.message, words));
+}
 
 inline constexpr double pi = 3.14159265358979323846;
 

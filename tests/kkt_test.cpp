@@ -32,15 +32,6 @@ namespace {
 
 const double inf = std::numeric_limits<double>::infinity();
 
-bool has_code(const kkt_report& r, const std::string& code) {
-  return std::any_of(r.findings.begin(), r.findings.end(),
-                     [&](const finding& f) { return f.code == code; });
-}
-
-bool contains(const std::string& text, const std::string& part) {
-  return text.find(part) != std::string::npos;
-}
-
 const kkt_residual& residual_named(const kkt_report& r, const std::string& name) {
   return name == "stationarity" ? r.stationarity
          : name == "primal"     ? r.primal
@@ -672,15 +663,6 @@ TEST_CASE("a residual within the band is undecided, not a verdict either way") {
 TEST_CASE("bad input is an invalid_input report naming the entry") {
   const auto base = [] { return tank_point(); };
   REQUIRE(check_kkt(base()).result == verdict::holds);
-  const auto expect_invalid = [](const kkt_report& r, const std::string& code,
-                                 const std::string& words) {
-    CAPTURE(r.message);
-    CHECK(r.result == verdict::invalid_input);
-    CHECK(r.classification == kkt_classification::not_checked);
-    REQUIRE(!r.findings.empty());
-    CHECK(r.findings.back().code == code);
-    CHECK(contains(r.message, words));
-  };
   const double nan = std::numeric_limits<double>::quiet_NaN();
   SUBCASE("model_at_point") {
     struct bad_case {
