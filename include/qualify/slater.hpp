@@ -391,7 +391,9 @@ inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::Vect
   p.cl = cl;
   p.cu = cu;
   p.row_norm = Eigen::VectorXd::Zero(m);
-  for (Index i = 0; i < m; ++i) p.row_norm[i] = p.rows.row(i).norm();
+  // Rows of a matrix without columns are zero rows (Eigen asserts on the norm of an empty row).
+  if (n > 0)
+    for (Index i = 0; i < m; ++i) p.row_norm[i] = p.rows.row(i).norm();
   p.side_lower.assign(std::size_t(m), -1);
   p.side_upper.assign(std::size_t(m), -1);
   p.col_lower_side.assign(std::size_t(n), -1);
