@@ -353,10 +353,12 @@ TEST_CASE("check_kkt: a callback that fails away from x, or changes its size the
     }
 }
 
-TEST_CASE("check_derivatives: a callback that fails at displaced points, or changes its size") {
+TEST_CASE("check_derivatives: a callback that fails or changes its size at displaced points") {
   // At x: evaluate_model calls constraint_values, constraint_jacobian and objective_gradient
   // once; then each differenced callback once more (objective for the first time). Every
-  // call after those is at a displaced point.
+  // call after those is at a displaced point. There every fault, a wrong size included, is
+  // a failed evaluation (as derivative_check_test pins down): smaller steps are tried, the
+  // entries stay not evaluated and a finding quotes the callback.
   for (const std::string callback :
        {"objective", "constraint_values", "constraint_jacobian", "objective_gradient"})
     for (fault f : all_faults()) {
@@ -367,15 +369,11 @@ TEST_CASE("check_derivatives: a callback that fails at displaced points, or chan
       CAPTURE(callback);
       CAPTURE(std::string(name_of(f)));
       CAPTURE(o.full);
-      if (f == fault::wrong_size) {
-        check_refused(o, callback, f);
-        CHECK(contains(r.message, "its size changed between calls"));
-      } else {
-        // No difference can be taken: the entries are not evaluated, never called agreeing.
-        CHECK(r.result == verdict::undecided);
-        CHECK(r.not_evaluated > 0);
-        CHECK(contains(o.finding_text("displaced_point_failed"), words_of(callback, f).front()));
-      }
+      // No difference can be taken: the entries are not evaluated, never called agreeing.
+      CHECK(r.result == verdict::undecided);
+      CHECK(r.not_evaluated > 0);
+      for (const auto& w : words_of(callback, f))
+        CHECK(contains(o.finding_text("displaced_point_failed"), w));
     }
 }
 
