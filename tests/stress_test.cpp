@@ -178,23 +178,22 @@ TEST_CASE("stress: the affine Slater check and check_slater with rows scaled to 
   a << 1, 1, -1, 0, 0, -1;
   const VectorXd rl = VectorXd::Constant(3, -inf), ru = (VectorXd(3) << 1, 0, 0).finished();
   const VectorXd cl = VectorXd::Constant(2, -inf), cu = VectorXd::Constant(2, inf);
-  // Row 0 (and the pinching row) scaled by f. Clear for f in [1, 1e8]; beyond, the verdict
-  // may change: bounds of size >= lp.infinity_threshold (1e20) count as absent
-  // (affine_slater_options), and the LPs receive the rows as given, so the LP engine's
-  // absolute tolerances (1e-8 (1 + |b|)) make a pinched pair of size 1e-8 look loose
-  // (measured: undecided at 1e-8; at 1e-200 and 1e-300 even the triangle is undecided, the
-  // margin LP's point failing the check on the data). Then only holds and fails may not swap.
+  // Row 0 (and the pinching row) scaled by f, bounds with them. The check divides each row by
+  // its largest entry or bound before its LPs, so every f gives the verdicts of f = 1 (before,
+  // the pinched pair was undecided at 1e-8 and even the triangle at 1e-200), except where a
+  // bound reaches lp.infinity_threshold (1e20): such a bound counts as absent
+  // (affine_slater_options), so at f = 1e200 and 1e300 the pinching row has no bound and the
+  // interior is back.
   for (double f : {1.0, 1e8, 1e-8, 1e300, 1e-300, 1e-200, 1e200}) {
     CAPTURE(f);
-    const bool clear = f >= 1 && f <= 1e8;
+    const bool absent = f >= 1e20;
     MatrixXd as = a;
     as.row(0) *= f;
     VectorXd rus = ru;
     rus(0) *= f;
     const auto r = check_affine_slater(as, rl, rus, cl, cu);
     CAPTURE(fmt::format("{:f}", r));
-    CHECK(r.result != verdict::fails);
-    if (clear) CHECK(r.result == verdict::holds);
+    CHECK(r.result == verdict::holds);
     MatrixXd pinched(4, 2);
     pinched << as, -f, -f;
     VectorXd rl4(4), ru4(4);
@@ -202,8 +201,9 @@ TEST_CASE("stress: the affine Slater check and check_slater with rows scaled to 
     ru4 << rus, -f;
     const auto p = check_affine_slater(pinched, rl4, ru4, cl, cu);
     CAPTURE(fmt::format("{:f}", p));
-    CHECK(p.result != verdict::holds);
-    if (clear) {
+    if (absent) {
+      CHECK(p.result == verdict::holds);
+    } else {
       CHECK(p.result == verdict::fails);
       CHECK(p.feasible == feasibility::feasible);
       CHECK(p.implicit_equality_rows() == std::vector<Eigen::Index>{0, 3});
@@ -550,4 +550,56 @@ TEST_CASE("regression: a Farkas certificate on rows scaled by 1e8 and 1e-8 is ke
   CHECK(r.feasible == feasibility::infeasible);
   CHECK(r.result == verdict::fails);
   CHECK(r.certificate_rows == std::vector<Eigen::Index>{0, 1});
+}
+
+TEST_CASE("regression: a row whose 2-norm overflows is refused, not called a zero row") {
+  // Found by tests/fuzz/fuzz_licq: (1.6e301, 1.8e308) has finite entries but ||g|| > DBL_MAX,
+  // so the unit row g / ||g|| was 0 and LICQ said "fails: zero gradient" for a row of rank 1
+  // (hand-checkable). Refused by both paths, by label, and by MFCQ.
+  MatrixXd j(2, 2);
+  j << 1, 0, 1.6e301, std::numeric_limits<double>::max();
+  for (const licq_report& r : {check_licq(j, {}, {"a", "b"}),
+                               check_licq(Eigen::SparseMatrix<double>(j.sparseView()), {},
+                                          {"a", "b"})}) {
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result == verdict::invalid_input);
+    REQUIRE(r.findings.size() == 1);
+    CHECK(r.findings[0].code == "row_norm_overflow");
+    CHECK(r.message.find("b has finite entries") != std::string::npos);
+  }
+  CHECK(check_mfcq(j).result == verdict::invalid_input);
+  // float overflows at 3.4e38: its own range decides.
+  const Eigen::MatrixXf f = (Eigen::MatrixXf(1, 2) << 3e38f, 3e38f).finished();
+  CHECK(check_licq(f).result == verdict::invalid_input);
+  CHECK(check_licq(Eigen::SparseMatrix<float>(f.sparseView())).result == verdict::invalid_input);
+  CHECK(check_licq(j.bottomRows(1) / 4).result == verdict::holds);  // a scaled row is accepted
+}
+
+TEST_CASE("regression: an equality dependence between a subnormal row and 5 has a finite mu") {
+  // Found by tests/fuzz/fuzz_mfcq: E = (-6d, 5, 6, 6, -d)^T with d the smallest subnormal, one
+  // column. The first dependence read "5 = -inf * (-6d)" and mu was NaN; the certificate now
+  // takes a dependence with finite coefficients, here -d = (1/6)(-6d) (hand-checkable).
+  const double d = std::numeric_limits<double>::denorm_min();
+  const MatrixXd e = (MatrixXd(5, 1) << -6 * d, 5, 6, 6, -d).finished();
+  const mfcq_report r = check_mfcq(MatrixXd(0, 1), e);
+  CAPTURE(fmt::format("{:f}", r));
+  CHECK(r.result == verdict::fails);
+  REQUIRE(r.certificate.kind == mfcq_certificate_kind::equality_dependence);
+  CHECK(r.certificate.mu.allFinite());
+  CHECK(r.certificate.mu.lpNorm<1>() == doctest::Approx(1.0));
+  CHECK(r.certificate.residual <= 1e-12);
+}
+
+TEST_CASE("regression: A x overflowing at the LP's point is not a verified feasible point") {
+  // Found by tests/fuzz/fuzz_slater: 3.6e307 x0 = -15 with x0 fixed at -15 is infeasible
+  // (hand-checkable: 3.6e307 * -15 != -15), but A x overflowed to -inf, the violation was NaN
+  // and the point passed. Never "holds"; the same row scaled by 1e-7 is infeasible outright.
+  const VectorXd rl = VectorXd::Constant(1, -15), cl = (VectorXd(2) << -15, 10).finished();
+  for (double big : {3.5953862697246315e307, 3.6e300}) {
+    const MatrixXd a = (MatrixXd(1, 2) << big, 0).finished();
+    const auto r = check_affine_slater(a, rl, rl, cl, cl);
+    CAPTURE(fmt::format("{:f}", r));
+    CHECK(r.result != verdict::holds);
+    CHECK(r.feasible != feasibility::feasible);
+  }
 }

@@ -564,7 +564,7 @@ void analyze_rows(const Eigen::Ref<const matrix<Scalar>>& jac, const licq_option
       for (Index t = 0; t < r; ++t) {
         if (coef(t, c) == Scalar(0)) continue;
         const Index base = kept[decision.order[t]];
-        dep.terms.push_back({to_global(base), double(coef(t, c) * norms(row) / norms(base))});
+        dep.terms.push_back({to_global(base), double(coef(t, c) * (norms(row) / norms(base)))});
       }
       std::sort(dep.terms.begin(), dep.terms.end(),
                 [](const auto& a, const auto& b) { return abs(a.coefficient) > abs(b.coefficient); });
@@ -764,6 +764,8 @@ licq_report validated_licq(const Eigen::MatrixBase<Derived>& jacobian, const lic
   if (rep.result == verdict::invalid_input) return rep;
   if (auto bad = non_finite_message(jacobian, "Jacobian"))
     return invalid_licq(rep, "non_finite_entry", *bad);
+  if (auto row = first_overflowing_row(jacobian))
+    return invalid_licq(rep, "row_norm_overflow", overflowing_row_message(rep.names(*row)));
   return rep;
 }
 

@@ -65,7 +65,9 @@ struct mfcq_options {
 /// Which fact proves that MFCQ fails.
 enum class mfcq_certificate_kind {
   none,
-  positive_dependence,  ///< lambda >= 0, sum lambda = 1, A^T lambda + E^T mu = 0 (Motzkin)
+  /// lambda >= 0, sum lambda = 1, A^T lambda + E^T mu = 0 (Motzkin); max |mu_j| = 1 instead
+  /// where mu / sum lambda would overflow double (rows whose norms span its range).
+  positive_dependence,
   equality_dependence,  ///< lambda = 0, ||mu||_1 = 1, E^T mu = 0: E lacks full row rank
 };
 
@@ -418,6 +420,11 @@ mfcq_report mfcq_run(const Matrix& a, const Matrix& e, const mfcq_options& optio
   }
   const std::vector<std::string> eq_labels(labels.begin() + ma, labels.end());
   const VectorXd a_norm = row_norms(a), e_norm = row_norms(e);
+  for (Index i = 0; i < ma + me; ++i)
+    if (!std::isfinite(i < ma ? a_norm(i) : e_norm(i - ma))) {
+      std::string message = overflowing_row_message(names(i));
+      return invalid_mfcq(std::move(rep), "row_norm_overflow", std::move(message));
+    }
 
   // Rank of E, with its dependent rows explained by the LICQ analysis.
   verdict eq_verdict = verdict::holds;
@@ -530,33 +537,55 @@ mfcq_report mfcq_run(const Matrix& a, const Matrix& e, const mfcq_options& optio
     cert.kind = mfcq_certificate_kind::positive_dependence;
     cert.lambda = VectorXd::Zero(ma);
     cert.mu = VectorXd::Zero(me);
-    // lambda_unit / ||a_i|| times the smallest norm involved (the scale is normalised away
-    // below): 1 / ||a_i|| alone overflows for subnormal rows.
-    double least = std::numeric_limits<double>::infinity();
-    for (Index i = 0; i < ma; ++i)
-      if (lambda_unit(i) > 0 && a_norm(i) > 0) least = std::min(least, a_norm(i));
-    for (Index k = 0; k < q; ++k) least = std::min(least, e_norm(eq_used[k]));
-    if (!std::isfinite(least)) least = 1;
+    // lambda_unit / ||a_i|| and mu_unit / ||e_j||, normalised to sum lambda = 1, in long
+    // double: 1 / ||a_i|| overflows double for subnormal rows, and scaling by one norm
+    // underflows the others when the norms span double's range (found by fuzzing).
+    using ld = long double;
+    Eigen::Matrix<ld, Eigen::Dynamic, 1> lam = Eigen::Matrix<ld, Eigen::Dynamic, 1>::Zero(ma),
+                                         mu = Eigen::Matrix<ld, Eigen::Dynamic, 1>::Zero(me);
     for (Index i = 0; i < ma; ++i)
       if (lambda_unit(i) > 0)
-        cert.lambda(i) = a_norm(i) > 0 ? lambda_unit(i) * (least / a_norm(i)) : lambda_unit(i);
-    for (Index k = 0; k < q; ++k) cert.mu(eq_used[k]) = mu_unit(k) * (least / e_norm(eq_used[k]));
+        lam(i) = a_norm(i) > 0 ? ld(lambda_unit(i)) / ld(a_norm(i)) : ld(lambda_unit(i));
+    for (Index k = 0; k < q; ++k) mu(eq_used[k]) = ld(mu_unit(k)) / ld(e_norm(eq_used[k]));
+    // Divided by sum lambda, or by the largest |mu| where mu / sum lambda would overflow.
+    ld scale = lam.sum();
+    if (me > 0 && mu.cwiseAbs().maxCoeff() > scale * ld(1e300)) scale = mu.cwiseAbs().maxCoeff();
+    cert.lambda = (lam / scale).cast<double>();
+    cert.mu = (mu / scale).cast<double>();
     if (!zero_rows.empty()) cert.margin_bound = 0;
   } else if (eq_verdict == verdict::fails) {
-    // E^T mu = 0 from the first dependent equality: e_row = sum coefficient * e_term.
-    const auto& dep = rep.equality_licq->dependencies.front();
+    // E^T mu = 0 from a dependent equality, e_row = sum coefficient * e_term: the first whose
+    // coefficients are all finite, else the first.
+    const auto& deps = rep.equality_licq->dependencies;
+    const auto finite = std::find_if(deps.begin(), deps.end(), [](const row_dependence& d) {
+      return std::all_of(d.terms.begin(), d.terms.end(),
+                         [](const row_dependence::term& t) { return std::isfinite(t.coefficient); });
+    });
+    const auto& dep = finite != deps.end() ? *finite : deps.front();
     cert.kind = mfcq_certificate_kind::equality_dependence;
     cert.lambda = VectorXd::Zero(ma);
     cert.mu = VectorXd::Zero(me);
-    cert.mu(dep.row) = 1;
-    for (const auto& t : dep.terms) cert.mu(t.row) = -t.coefficient;
+    // mu = (1, -c) divided by its largest entry: a coefficient beyond double's range (rows
+    // whose norms differ by more than the range, found by fuzzing) leaves its limit direction.
+    double largest = 1;
+    bool infinite = false;
+    for (const auto& t : dep.terms)
+      if (std::isinf(t.coefficient))
+        infinite = true;
+      else
+        largest = std::max(largest, std::abs(t.coefficient));
+    cert.mu(dep.row) = infinite ? 0.0 : 1 / largest;
+    for (const auto& t : dep.terms)
+      cert.mu(t.row) = std::isinf(t.coefficient) ? (t.coefficient > 0 ? -1.0 : 1.0)
+                       : infinite                ? 0.0
+                                                 : -t.coefficient / largest;
   }
   if (cert.kind != mfcq_certificate_kind::none) {
-    const double total = cert.kind == mfcq_certificate_kind::positive_dependence
-                             ? cert.lambda.sum()
-                             : cert.mu.template lpNorm<1>();
-    cert.lambda /= total;
-    cert.mu /= total;
+    if (cert.kind == mfcq_certificate_kind::equality_dependence) {
+      const double total = cert.mu.template lpNorm<1>();
+      cert.lambda /= total;
+      cert.mu /= total;
+    }
     for (Index i = 0; i < ma; ++i)
       if (cert.lambda(i) > 0) cert.ineq_rows.push_back(i);
     for (Index j = 0; j < me; ++j)

@@ -190,15 +190,17 @@ struct slater_side {
   bool column = false;
   Index index = 0;
   bound_side side = bound_side::lower;
-  double bound = 0;
-  double weight = 0;  ///< ||a_i||_2 + |b| (columns: 1 + |b|): rho = slack / weight
+  double bound = 0;    ///< on the scaled row (slater_system::row_scale)
+  double weight = 0;   ///< ||a_i||_2 + |b| on the scaled row (columns: 1 + |b|): rho = slack / weight
+  double given = 0;    ///< the bound as the caller gave it, for reports
 };
 
 struct slater_system {
   lp_sparse A;                                               // column-major
   Eigen::SparseMatrix<double, Eigen::RowMajor, Index> rows;  // the same, by row
   Eigen::VectorXd rl, ru, cl, cu;
-  Eigen::VectorXd row_norm;  // ||a_i||_2
+  Eigen::VectorXd row_scale;  // row i and its bounds as given = row_scale[i] times the above
+  Eigen::VectorXd row_norm;   // ||a_i||_2 of the scaled rows
   std::vector<slater_side> sides;
   std::vector<Index> side_lower, side_upper;  // per row: side index or -1
   std::vector<Index> col_lower_side, col_upper_side;
@@ -214,8 +216,16 @@ struct slater_point_check {
 
 inline slater_point_check slater_check_point(const slater_system& p, const Eigen::VectorXd& x) {
   slater_point_check out;
+  const double inf = std::numeric_limits<double>::infinity();
+  if (!x.allFinite()) {  // an LP point beyond double's range (found by fuzzing: x <= -1.8e308)
+    out.rho = Eigen::VectorXd::Constant(Index(p.sides.size()), -inf);
+    out.min_rho = -inf;
+    out.violation = inf;
+    return out;
+  }
   const Eigen::VectorXd ax = p.A * x;
   const Eigen::VectorXd size = p.A.cwiseAbs() * x.cwiseAbs();
+  // A NaN (overflow on both sides of a ratio) counts as a violation, never as none.
   auto violation = [&](double value, double lo, double up, double scale) {
     double v = 0;
     if (std::isfinite(lo)) v = std::max(v, lo - value);
@@ -223,7 +233,8 @@ inline slater_point_check slater_check_point(const slater_system& p, const Eigen
     if (v == 0) return 0.0;
     double denom = scale + std::max(std::isfinite(lo) ? std::abs(lo) : 0.0,
                                     std::isfinite(up) ? std::abs(up) : 0.0);
-    return denom > 0 ? v / denom : std::numeric_limits<double>::infinity();
+    const double r = denom > 0 ? v / denom : std::numeric_limits<double>::infinity();
+    return std::isnan(r) ? std::numeric_limits<double>::infinity() : r;
   };
   for (Index i = 0; i < ax.size(); ++i)
     out.violation =
@@ -236,6 +247,7 @@ inline slater_point_check slater_check_point(const slater_system& p, const Eigen
     const double value = s.column ? x[s.index] : ax[s.index];
     const double slack = s.side == bound_side::lower ? value - s.bound : s.bound - value;
     double rho = s.weight > 0 ? slack / s.weight : (slack > 0 ? 1.0 : slack < 0 ? -1.0 : 0.0);
+    if (std::isnan(rho)) rho = -std::numeric_limits<double>::infinity();
     out.rho[static_cast<Index>(k)] = rho;
     out.min_rho = std::min(out.min_rho, rho);
   }
@@ -382,16 +394,32 @@ inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::Vect
   for (Eigen::VectorXd* v : {&ru, &cu})
     for (Index i = 0; i < v->size(); ++i)
       if ((*v)[i] >= infinity) (*v)[i] = inf;
+  // Each row and its bounds divided by the largest of its entries and finite bounds: rho and
+  // every verdict are unchanged, and the LPs see entries within [-1, 1], so that A x does not
+  // overflow at entries near 1e308 and the LPs' absolute tolerances do not swallow rows of
+  // size 1e-200 (found by fuzzing and tests/stress_test.cpp).
   slater_system p;
-  p.A = std::move(A);
+  p.row_scale = Eigen::VectorXd::Zero(m);
+  for (Index j = 0; j < A.outerSize(); ++j)
+    for (lp_sparse::InnerIterator it(A, j); it; ++it)
+      p.row_scale[it.row()] = std::max(p.row_scale[it.row()], std::abs(it.value()));
+  for (Index i = 0; i < m; ++i) {
+    for (double b : {rl[i], ru[i]})
+      if (std::isfinite(b)) p.row_scale[i] = std::max(p.row_scale[i], std::abs(b));
+    if (p.row_scale[i] == 0) p.row_scale[i] = 1;
+  }
+  const std::vector<double> given_lower(rl.data(), rl.data() + m),
+      given_upper(ru.data(), ru.data() + m);
+  rl = rl.cwiseQuotient(p.row_scale);
+  ru = ru.cwiseQuotient(p.row_scale);
+  p.A = p.row_scale.cwiseInverse().asDiagonal() * A;
   p.A.makeCompressed();
   p.rows = p.A;
   p.rl = rl;
   p.ru = ru;
   p.cl = cl;
   p.cu = cu;
-  // Scaled where squares would overflow (1e200 entries) and safe without columns (Eigen's
-  // sparse norm asserts on an empty row).
+  // Safe without columns (Eigen's sparse norm asserts on an empty row).
   std::vector<double> norms;
   std::vector<sparse_index> counts;
   sparse_row_norms(p.A, norms, counts);
@@ -400,8 +428,9 @@ inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::Vect
   p.side_upper.assign(std::size_t(m), -1);
   p.col_lower_side.assign(std::size_t(n), -1);
   p.col_upper_side.assign(std::size_t(n), -1);
-  auto add_side = [&](bool column, Index index, bound_side side, double bound, double norm) {
-    p.sides.push_back({column, index, side, bound, norm + std::abs(bound)});
+  auto add_side = [&](bool column, Index index, bound_side side, double bound, double norm,
+                      double given) {
+    p.sides.push_back({column, index, side, bound, norm + std::abs(bound), given});
     return static_cast<Index>(p.sides.size()) - 1;
   };
   for (Index i = 0; i < m; ++i) {
@@ -410,9 +439,11 @@ inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::Vect
       continue;
     }
     if (std::isfinite(rl[i]))
-      p.side_lower[std::size_t(i)] = add_side(false, i, bound_side::lower, rl[i], p.row_norm[i]);
+      p.side_lower[std::size_t(i)] =
+          add_side(false, i, bound_side::lower, rl[i], p.row_norm[i], given_lower[i]);
     if (std::isfinite(ru[i]))
-      p.side_upper[std::size_t(i)] = add_side(false, i, bound_side::upper, ru[i], p.row_norm[i]);
+      p.side_upper[std::size_t(i)] =
+          add_side(false, i, bound_side::upper, ru[i], p.row_norm[i], given_upper[i]);
   }
   for (Index j = 0; j < n; ++j) {
     if (cl[j] == cu[j]) {
@@ -420,9 +451,9 @@ inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::Vect
       continue;
     }
     if (std::isfinite(cl[j]))
-      p.col_lower_side[std::size_t(j)] = add_side(true, j, bound_side::lower, cl[j], 1.0);
+      p.col_lower_side[std::size_t(j)] = add_side(true, j, bound_side::lower, cl[j], 1.0, cl[j]);
     if (std::isfinite(cu[j]))
-      p.col_upper_side[std::size_t(j)] = add_side(true, j, bound_side::upper, cu[j], 1.0);
+      p.col_upper_side[std::size_t(j)] = add_side(true, j, bound_side::upper, cu[j], 1.0, cu[j]);
   }
   return p;
 }
@@ -490,7 +521,7 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
   };
   auto side_name = [&](const slater_side& s) {
     return (s.column ? rep.column_name(s.index) : rep.names(s.index)) +
-           (s.side == bound_side::lower ? " >= " : " <= ") + format_figure(s.bound);
+           (s.side == bound_side::lower ? " >= " : " <= ") + format_figure(s.given);
   };
 
   // 1. The margin LP: max t s.t. rho_k(x) >= t for every side, -1 <= t <= 1. Zero rows
@@ -533,7 +564,12 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
       if (!(margin > cert_tol)) continue;
       rep.feasible = feasibility::infeasible;
       rep.result = rep.refined_slater = verdict::fails;
-      rep.farkas = ys / ys.lpNorm<Eigen::Infinity>();
+      // On the rows as given: y_i / row_scale_i, in long double so that extreme scales
+      // neither overflow nor vanish before the vector is normalised.
+      using ld = long double;
+      const Eigen::Matrix<ld, Eigen::Dynamic, 1> given =
+          ys.cast<ld>().cwiseQuotient(p.row_scale.cast<ld>());
+      rep.farkas = (given / given.cwiseAbs().maxCoeff()).cast<double>();
       rep.certificate_margin = margin;
       for (Index i = 0; i < m; ++i)
         if (rep.farkas[i] != 0) rep.certificate_rows.push_back(i);
@@ -625,8 +661,10 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     const lp_result r = solve_retrying("feasibility", original);
     record("feasibility", r, 0.0);
     if (r.status == lp_status::infeasible && certify_infeasible(r.farkas)) return rep;
-    const bool ok = r.status == lp_status::optimal &&
-                    slater_check_point(p, r.x).violation <= o.feasibility_tolerance;
+    const double violation = r.status == lp_status::optimal
+                                 ? slater_check_point(p, r.x).violation
+                                 : std::numeric_limits<double>::quiet_NaN();
+    const bool ok = violation <= o.feasibility_tolerance;
     if (!ok && margin_candidate) {
       margin_candidate->lp_solves = rep.lp_solves;
       margin_candidate->lp_iterations = rep.lp_iterations;
@@ -640,11 +678,16 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
     if (!ok) {
       rep.feasible = feasibility::undecided;
       rep.result = rep.refined_slater = verdict::undecided;
-      rep.message = "undecided: the feasibility LP ended " + std::string(to_string(r.status)) +
-                    " (" + r.message + ")";
-      add_finding(rep.findings, severity::warning, "lp_not_solved",
-                  "the feasibility LP ended " + std::string(to_string(r.status)) + ": " + r.message,
-                  {}, rep.names);
+      const std::string why =
+          r.status == lp_status::optimal
+              ? "the feasibility LP's point misses the data by a relative " +
+                    format_figure(violation) + " (feasibility_tolerance " +
+                    format_figure(o.feasibility_tolerance) + ")"
+              : "the feasibility LP ended " + std::string(to_string(r.status)) + ": " + r.message;
+      rep.message = "undecided: " + why;
+      add_finding(rep.findings, severity::warning,
+                  r.status == lp_status::optimal ? "point_not_verified" : "lp_not_solved", why, {},
+                  rep.names);
       return rep;
     }
     rep.feasible = feasibility::feasible;
@@ -722,19 +765,19 @@ inline affine_slater_report affine_slater_run(lp_sparse A, Eigen::VectorXd rl, E
 
   for (Index k = 0; k < K; ++k) {
     const auto& s = p.sides[std::size_t(k)];
-    const implicit_bound b{s.index, s.side, s.bound};
+    const implicit_bound b{s.index, s.side, s.given};
     if (implicit[std::size_t(k)]) {
       (s.column ? rep.implicit_fixed_columns : rep.implicit_equalities).push_back(b);
       if (s.column)
         add_finding(rep.findings, severity::warning, "implicit_fixed_column",
                     rep.column_name(s.index) + " is fixed at its " +
-                        std::string(to_string(s.side)) + " bound " + format_figure(s.bound) +
+                        std::string(to_string(s.side)) + " bound " + format_figure(s.given) +
                         " on the whole feasible set",
                     {}, rep.names);
       else
         add_finding(rep.findings, severity::warning, "implicit_equality",
                     rep.names(s.index) + " holds with equality at its " +
-                        std::string(to_string(s.side)) + " bound " + format_figure(s.bound) +
+                        std::string(to_string(s.side)) + " bound " + format_figure(s.given) +
                         " on the whole feasible set" +
                         (p.row_norm[s.index] == 0 ? " (the row has no nonzero entry)" : ""),
                     {s.index}, rep.names);
@@ -997,7 +1040,7 @@ inline slater_point_values slater_measure(model_probe& probe, const slater_repor
   for (Index i : rep.convex_rows)
     out.convex_max = std::max(out.convex_max, out.values[i] / rep.weights[i]);
   auto sizes = [&](Index i, double& norm, double& offset) {
-    norm = jac.row(i).norm();
+    norm = jac.row(i).stableNorm();
     offset = std::abs(jac.row(i).dot(x) - out.values[i]);
     return norm + jac.row(i).cwiseAbs().dot(x.cwiseAbs()) + offset;
   };
@@ -1113,7 +1156,7 @@ inline slater_report check_slater(const callback_model& model, const slater_opti
   const MatrixXd& J0 = at_start.point.jacobian;
   rep.weights.resize(m);
   for (Index i = 0; i < m; ++i) {
-    const double w = J0.row(i).norm() + std::abs(c0[i]);
+    const double w = J0.row(i).stableNorm() + std::abs(c0[i]);  // (1e200 rows: no overflow)
     rep.weights[i] = w > 0 && std::isfinite(w) ? w : 1.0;
   }
   detail::model_probe probe(model, rep.names);

@@ -404,7 +404,7 @@ sparse_outcome analyze_sparse_rows(const Derived& jac, const std::vector<Index>&
             omitted = true;
             continue;
           }
-          dep.terms.push_back({rows.to_global(kept[base]), x[t] * norms[dead] / norms[base]});
+          dep.terms.push_back({rows.to_global(kept[base]), x[t] * (norms[dead] / norms[base])});
         }
         dep.residual = omitted ? w.norm() : full_residual;
         std::sort(dep.terms.begin(), dep.terms.end(), [](const auto& a, const auto& b) {
@@ -451,7 +451,7 @@ sparse_outcome analyze_sparse_rows(const Derived& jac, const std::vector<Index>&
             const Index own = column(row);
             w.add(own, 1.0);
             for (const auto& t : terms)
-              w.add(column(t.row), -t.coefficient * norms[column(t.row)] / norms[own]);
+              w.add(column(t.row), -t.coefficient * (norms[column(t.row)] / norms[own]));
             const double residual = w.norm();
             w.clear();
             return residual;
@@ -492,6 +492,21 @@ licq_report validated_sparse_licq(const Eigen::SparseMatrixBase<Derived>& jacobi
   canonical = storage.canonical;
   if (auto bad = sparse_non_finite_message(jacobian, "Jacobian"))
     return invalid_licq(rep, "non_finite_entry", *bad);
+  // Summed entries and row norms may overflow although every stored entry is finite (norms
+  // are summed in double, which would misjudge long double rows: their range is wider).
+  using Scalar = typename Derived::Scalar;
+  if constexpr (sizeof(Scalar) <= sizeof(double)) {
+    std::vector<double> norms;
+    std::vector<sparse_index> counts;
+    if (canonical)
+      sparse_row_norms(jacobian.derived(), norms, counts);
+    else
+      sparse_row_norms(summed_copy<Scalar>(jacobian), norms, counts);
+    for (std::size_t i = 0; i < norms.size(); ++i)
+      if (!(norms[i] <= double(std::numeric_limits<Scalar>::max())))
+        return invalid_licq(rep, "row_norm_overflow",
+                            overflowing_row_message(rep.names(Index(i))));
+  }
   return rep;
 }
 

@@ -123,6 +123,27 @@ class byte_source {
   std::size_t pos_ = 0;
 };
 
+/// Rows whose 2-norm lies beyond double's range although their entries are finite: the LICQ
+/// and MFCQ checks refuse them (row_norm_overflow). Norms in long double; `borderline` when a
+/// norm is within rounding of the largest double, where either answer is right.
+struct norm_overflow {
+  bool overflows = false, borderline = false;
+};
+
+inline norm_overflow row_norm_overflow(const Eigen::MatrixXd& m) {
+  norm_overflow out;
+  if (m.cols() == 0) return out;  // (row(i) of an empty row offsets a null pointer)
+  const long double top = std::numeric_limits<double>::max();
+  for (Index i = 0; i < m.rows(); ++i) {
+    const long double norm = m.row(i).cast<long double>().norm();
+    if (norm > top * (1 + 1e-13L))
+      out.overflows = true;
+    else if (norm > top * (1 - 1e-13L))
+      out.borderline = true;
+  }
+  return out;
+}
+
 /// Each row divided by its 2-norm (zero rows stay zero), computed without overflow or
 /// underflow: the rows every check's thresholds refer to.
 inline Eigen::MatrixXd unit_rows(const Eigen::MatrixXd& m) {

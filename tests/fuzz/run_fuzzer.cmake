@@ -4,7 +4,7 @@
 # SPDX-License-Identifier: MIT
 string(REPLACE "|" ";" seeds "${SEEDS}")
 execute_process(
-  COMMAND ${FUZZER} -max_total_time=${SECONDS} -max_len=${MAX_LEN} -timeout=30
+  COMMAND ${FUZZER} -max_total_time=${SECONDS} -max_len=${MAX_LEN} -timeout=30 -seed=${SEED}
           -print_final_stats=1 -artifact_prefix=${ARTIFACTS} ${CORPUS} ${seeds}
   RESULT_VARIABLE status
   OUTPUT_VARIABLE log

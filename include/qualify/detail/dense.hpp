@@ -33,6 +33,29 @@ inline std::string describe_non_finite(long double v) {
   return std::isnan(v) ? "NaN" : (v > 0 ? "+Inf" : "-Inf");
 }
 
+/// The first row whose 2-norm lies beyond the scalar type's range although its entries are
+/// finite (entries near the largest value): its unit gradient and every coefficient on it would
+/// overflow. Rows are only scanned when the largest entry times sqrt(cols) could overflow.
+template <class Derived>
+std::optional<Eigen::Index> first_overflowing_row(const Eigen::MatrixBase<Derived>& m) {
+  using Scalar = typename Derived::Scalar;
+  using std::sqrt;
+  if (m.size() == 0 ||
+      m.cwiseAbs().maxCoeff() <= std::numeric_limits<Scalar>::max() / sqrt(Scalar(m.cols())))
+    return std::nullopt;
+  for (Eigen::Index i = 0; i < m.rows(); ++i) {
+    const Eigen::Matrix<Scalar, 1, Eigen::Dynamic> row = m.row(i);
+    if (!std::isfinite(static_cast<long double>(row.stableNorm()))) return i;
+  }
+  return std::nullopt;
+}
+
+/// The message for a row found by first_overflowing_row (or its sparse twin).
+inline std::string overflowing_row_message(const std::string& name) {
+  return name + " has finite entries but a 2-norm beyond the floating-point range; divide it by "
+                "a positive constant (a scaled row is the same constraint)";
+}
+
 /// dst = src^T, copied in square tiles so that both sides move a cache line at a time (a plain
 /// transposed assignment reads one of them with a stride of a whole column).
 template <class Scalar>
