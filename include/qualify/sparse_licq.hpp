@@ -493,19 +493,30 @@ licq_report validated_sparse_licq(const Eigen::SparseMatrixBase<Derived>& jacobi
   if (auto bad = sparse_non_finite_message(jacobian, "Jacobian"))
     return invalid_licq(rep, "non_finite_entry", *bad);
   // Summed entries and row norms may overflow although every stored entry is finite (norms
-  // are summed in double, which would misjudge long double rows: their range is wider).
+  // are summed in double, which would misjudge long double rows: their range is wider). A row's
+  // norm is at most its largest entry times the stored entries, so the usual Jacobian skips the
+  // norms pass that the analysis makes again.
   using Scalar = typename Derived::Scalar;
   if constexpr (sizeof(Scalar) <= sizeof(double)) {
-    std::vector<double> norms;
-    std::vector<sparse_index> counts;
-    if (canonical)
-      sparse_row_norms(jacobian.derived(), norms, counts);
-    else
-      sparse_row_norms(summed_copy<Scalar>(jacobian), norms, counts);
-    for (std::size_t i = 0; i < norms.size(); ++i)
-      if (!(norms[i] <= double(std::numeric_limits<Scalar>::max())))
-        return invalid_licq(rep, "row_norm_overflow",
-                            overflowing_row_message(rep.names(Index(i))));
+    double largest = 0, stored = 0;
+    Eigen::internal::evaluator<Derived> ev(jacobian.derived());
+    for (Index j = 0; j < jacobian.outerSize(); ++j)
+      for (typename Eigen::internal::evaluator<Derived>::InnerIterator it(ev, j); it; ++it) {
+        largest = std::max(largest, std::abs(double(it.value())));
+        ++stored;
+      }
+    if (largest * stored > double(std::numeric_limits<Scalar>::max())) {
+      std::vector<double> norms;
+      std::vector<sparse_index> counts;
+      if (canonical)
+        sparse_row_norms(jacobian.derived(), norms, counts);
+      else
+        sparse_row_norms(summed_copy<Scalar>(jacobian), norms, counts);
+      for (std::size_t i = 0; i < norms.size(); ++i)
+        if (!(norms[i] <= double(std::numeric_limits<Scalar>::max())))
+          return invalid_licq(rep, "row_norm_overflow",
+                              overflowing_row_message(rep.names(Index(i))));
+    }
   }
   return rep;
 }
