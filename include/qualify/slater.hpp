@@ -191,7 +191,7 @@ struct slater_side {
   Index index = 0;
   bound_side side = bound_side::lower;
   double bound = 0;    ///< on the scaled row (slater_system::row_scale)
-  double weight = 0;   ///< ||a_i||_2 + |b| on the scaled row (columns: 1 + |b|): rho = slack / weight
+  double weight = 0;   ///< ||a_i||_2 + |b| on the scaled row (columns: 1 + |b|): rho = slack/weight
   double given = 0;    ///< the bound as the caller gave it, for reports
 };
 
@@ -233,8 +233,8 @@ inline slater_point_check slater_check_point(const slater_system& p, const Eigen
     if (v == 0) return 0.0;
     double denom = scale + std::max(std::isfinite(lo) ? std::abs(lo) : 0.0,
                                     std::isfinite(up) ? std::abs(up) : 0.0);
-    const double r = denom > 0 ? v / denom : std::numeric_limits<double>::infinity();
-    return std::isnan(r) ? std::numeric_limits<double>::infinity() : r;
+    const double r = denom > 0 ? v / denom : inf;
+    return std::isnan(r) ? inf : r;
   };
   for (Index i = 0; i < ax.size(); ++i)
     out.violation =
@@ -247,7 +247,7 @@ inline slater_point_check slater_check_point(const slater_system& p, const Eigen
     const double value = s.column ? x[s.index] : ax[s.index];
     const double slack = s.side == bound_side::lower ? value - s.bound : s.bound - value;
     double rho = s.weight > 0 ? slack / s.weight : (slack > 0 ? 1.0 : slack < 0 ? -1.0 : 0.0);
-    if (std::isnan(rho)) rho = -std::numeric_limits<double>::infinity();
+    if (std::isnan(rho)) rho = -inf;
     out.rho[static_cast<Index>(k)] = rho;
     out.min_rho = std::min(out.min_rho, rho);
   }
@@ -408,8 +408,7 @@ inline slater_system slater_prepare(lp_sparse A, Eigen::VectorXd rl, Eigen::Vect
       if (std::isfinite(b)) p.row_scale[i] = std::max(p.row_scale[i], std::abs(b));
     if (p.row_scale[i] == 0) p.row_scale[i] = 1;
   }
-  const std::vector<double> given_lower(rl.data(), rl.data() + m),
-      given_upper(ru.data(), ru.data() + m);
+  const Eigen::VectorXd given_lower = rl, given_upper = ru;
   rl = rl.cwiseQuotient(p.row_scale);
   ru = ru.cwiseQuotient(p.row_scale);
   p.A = p.row_scale.cwiseInverse().asDiagonal() * A;
