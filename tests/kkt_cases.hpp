@@ -55,9 +55,9 @@ inline VectorXd vec(std::initializer_list<double> v) {
 
 // ---- Hock-Schittkowski problems as callback models ------------------------------------------
 //
-// W. Hock and K. Schittkowski, Test Examples for Nonlinear Programming Codes, Lecture Notes in
-// Economics and Mathematical Systems 187, Springer, 1981: each problem is written as in the
-// book, with its inequalities g(x) >= 0 turned into -g(x) <= 0 and its bounds as affine
+// W. Hock and K. Schittkowski, Test Examples for Nonlinear Programming Codes, Springer, 1981
+// (volume 187 of its series in economics and mathematical systems): each problem is written as
+// in the book, with its inequalities g(x) >= 0 turned into -g(x) <= 0 and its bounds as affine
 // inequalities (they are constraints: HS71's x1 >= 1 is active at x*). Gradients come from
 // Eigen's forward automatic differentiation (unsupported/Eigen/AutoDiff), an independent
 // reference for the derivatives; the Hessian of the Lagrangian is check_kkt's finite
